@@ -1,0 +1,36 @@
+//! Command-line front end: one file per subcommand, each with its own `Args` and `run`.
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+pub mod convert;
+
+/// Salinity, osmolality and tonicity for hatchery and holding tanks.
+#[derive(Debug, Parser)]
+#[command(name = "halotank", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Convert conductivity and temperature to salinity, density, osmolality and more (or back).
+    Convert(convert::ConvertArgs),
+}
+
+/// Parses the command line, runs the subcommand and maps errors to exit codes.
+pub fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Convert(args) => convert::run(args),
+    };
+    match result {
+        Ok(code) => code,
+        Err(err) => {
+            eprintln!("halotank: {err:#}");
+            ExitCode::from(1)
+        }
+    }
+}

@@ -1,0 +1,1 @@
+//! PLACEHOLDER (helper replaces): ITS-90 <-> IPTS-68.

@@ -1,0 +1,1 @@
+//! PLACEHOLDER (helper replaces): van 't Hoff solute potential.
