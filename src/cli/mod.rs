@@ -4,6 +4,7 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 pub mod convert;
+pub mod convert_csv;
 
 /// Salinity, osmolality and tonicity for hatchery and holding tanks.
 #[derive(Debug, Parser)]
