@@ -26,7 +26,11 @@ pub struct AckToken {
 
 impl AckToken {
     pub(crate) fn new(generation: u64, pkid: u16, qos: QoS) -> Self {
-        Self { generation, pkid, qos }
+        Self {
+            generation,
+            pkid,
+            qos,
+        }
     }
 
     /// Connection generation the message arrived on (first connection is 1).
@@ -120,8 +124,13 @@ impl AckGate {
     pub(crate) fn end_connection(&self, eventloop: &mut EventLoop) {
         let mut g = self.lock();
         eventloop.clean();
-        eventloop.pending.retain(|r| !matches!(r, Request::PubAck(_) | Request::PubRec(_)));
-        let lost = g.enqueued_this_connection.saturating_sub(g.written_this_connection) + g.overflow.len() as u64;
+        eventloop
+            .pending
+            .retain(|r| !matches!(r, Request::PubAck(_) | Request::PubRec(_)));
+        let lost = g
+            .enqueued_this_connection
+            .saturating_sub(g.written_this_connection)
+            + g.overflow.len() as u64;
         self.stale.fetch_add(lost, Ordering::Relaxed);
         g.overflow.clear();
         g.enqueued_this_connection = 0;
@@ -214,25 +223,40 @@ mod tests {
         let (client, mut el) = client_with_capacity(8);
         let gate = AckGate::default();
         // Not connected yet.
-        assert_eq!(gate.ack(AckToken::new(0, 1, QoS::AtLeastOnce), &client), AckOutcome::Stale);
+        assert_eq!(
+            gate.ack(AckToken::new(0, 1, QoS::AtLeastOnce), &client),
+            AckOutcome::Stale
+        );
         let g1 = gate.begin_connection();
         assert_eq!(g1, 1);
-        assert_eq!(gate.ack(AckToken::new(g1, 5, QoS::AtLeastOnce), &client), AckOutcome::Sent);
+        assert_eq!(
+            gate.ack(AckToken::new(g1, 5, QoS::AtLeastOnce), &client),
+            AckOutcome::Sent
+        );
         gate.end_connection(&mut el);
         // The un-written ack of connection 1 was drained and counted.
         assert_eq!(gate.stale_count(), 2);
         assert!(el.pending.iter().all(|r| !matches!(r, Request::PubAck(_))));
         let g2 = gate.begin_connection();
-        assert_eq!(gate.ack(AckToken::new(g1, 6, QoS::AtLeastOnce), &client), AckOutcome::Stale);
+        assert_eq!(
+            gate.ack(AckToken::new(g1, 6, QoS::AtLeastOnce), &client),
+            AckOutcome::Stale
+        );
         assert_eq!(gate.stale_count(), 3);
-        assert_eq!(gate.ack(AckToken::new(g2, 6, QoS::AtLeastOnce), &client), AckOutcome::Sent);
+        assert_eq!(
+            gate.ack(AckToken::new(g2, 6, QoS::AtLeastOnce), &client),
+            AckOutcome::Sent
+        );
     }
 
     #[test]
     fn qos0_needs_no_ack() {
         let (client, _el) = client_with_capacity(1);
         let gate = AckGate::default();
-        assert_eq!(gate.ack(AckToken::new(7, 0, QoS::AtMostOnce), &client), AckOutcome::NotNeeded);
+        assert_eq!(
+            gate.ack(AckToken::new(7, 0, QoS::AtMostOnce), &client),
+            AckOutcome::NotNeeded
+        );
         assert_eq!(gate.stale_count(), 0);
     }
 
@@ -241,9 +265,18 @@ mod tests {
         let (client, _el) = client_with_capacity(1);
         let gate = AckGate::default();
         let g = gate.begin_connection();
-        assert_eq!(gate.ack(AckToken::new(g, 1, QoS::AtLeastOnce), &client), AckOutcome::Sent);
-        assert_eq!(gate.ack(AckToken::new(g, 2, QoS::AtLeastOnce), &client), AckOutcome::Queued);
-        assert_eq!(gate.ack(AckToken::new(g, 3, QoS::AtLeastOnce), &client), AckOutcome::Queued);
+        assert_eq!(
+            gate.ack(AckToken::new(g, 1, QoS::AtLeastOnce), &client),
+            AckOutcome::Sent
+        );
+        assert_eq!(
+            gate.ack(AckToken::new(g, 2, QoS::AtLeastOnce), &client),
+            AckOutcome::Queued
+        );
+        assert_eq!(
+            gate.ack(AckToken::new(g, 3, QoS::AtLeastOnce), &client),
+            AckOutcome::Queued
+        );
         assert_eq!(gate.queued_len(), 2);
         // Channel still full: nothing moves.
         gate.flush_overflow(&client);
@@ -256,6 +289,9 @@ mod tests {
         let gate = AckGate::default();
         let g = gate.begin_connection();
         gate.close();
-        assert_eq!(gate.ack(AckToken::new(g, 1, QoS::AtLeastOnce), &client), AckOutcome::Closed);
+        assert_eq!(
+            gate.ack(AckToken::new(g, 1, QoS::AtLeastOnce), &client),
+            AckOutcome::Closed
+        );
     }
 }

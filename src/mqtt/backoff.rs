@@ -42,7 +42,10 @@ impl Backoff {
     /// A fresh sequence. A `max` below `min` is treated as equal to `min`.
     pub fn new(policy: BackoffPolicy) -> Self {
         let max = policy.max.max(policy.min);
-        Self { policy: BackoffPolicy { max, ..policy }, attempt: 0 }
+        Self {
+            policy: BackoffPolicy { max, ..policy },
+            attempt: 0,
+        }
     }
 
     /// The policy in force (with `max >= min`).
@@ -58,7 +61,10 @@ impl Backoff {
     /// Un-jittered delay for the current attempt: `min * 2^attempt`, capped at `max`.
     pub fn base_delay(&self) -> Duration {
         let factor = 1u32.checked_shl(self.attempt.min(31)).unwrap_or(u32::MAX);
-        self.policy.min.checked_mul(factor).map_or(self.policy.max, |d| d.min(self.policy.max))
+        self.policy
+            .min
+            .checked_mul(factor)
+            .map_or(self.policy.max, |d| d.min(self.policy.max))
     }
 
     /// The next delay to wait before reconnecting; advances the sequence.
@@ -141,7 +147,10 @@ mod tests {
             })
             .collect();
         let first = delays[0];
-        assert!(delays.iter().any(|d| *d != first), "all 20 delays equal: {first:?}");
+        assert!(
+            delays.iter().any(|d| *d != first),
+            "all 20 delays equal: {first:?}"
+        );
     }
 
     #[test]
@@ -153,7 +162,11 @@ mod tests {
         }
         assert_eq!(b.base_delay(), Duration::from_millis(3200));
         b.connection_ended(Duration::from_secs(2));
-        assert_eq!(b.base_delay(), Duration::from_millis(3200), "flapping connection must not reset");
+        assert_eq!(
+            b.base_delay(),
+            Duration::from_millis(3200),
+            "flapping connection must not reset"
+        );
         b.connection_ended(Duration::from_secs(10));
         assert_eq!(b.attempt(), 0);
         assert_eq!(b.base_delay(), Duration::from_millis(100));

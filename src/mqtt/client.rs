@@ -84,7 +84,9 @@ pub struct MqttHandle {
 
 impl std::fmt::Debug for MqttHandle {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.debug_struct("MqttHandle").field("state", &*self.inner.state_tx.borrow()).finish()
+        f.debug_struct("MqttHandle")
+            .field("state", &*self.inner.state_tx.borrow())
+            .finish()
     }
 }
 
@@ -142,7 +144,12 @@ impl MqttHandle {
             task: Mutex::new(Some(task)),
             availability: options.availability.clone(),
         };
-        Ok((MqttHandle { inner: Arc::new(shared) }, inbound_rx))
+        Ok((
+            MqttHandle {
+                inner: Arc::new(shared),
+            },
+            inbound_rx,
+        ))
     }
 
     /// Acknowledge a message (never blocks). Only acks for the live connection are sent.
@@ -160,12 +167,18 @@ impl MqttHandle {
         qos: QoS,
     ) -> Result<(), MqttError> {
         if topic.is_empty() || !rumqttc::valid_topic(topic) {
-            return Err(MqttError::InvalidTopic { topic: topic.to_string() });
+            return Err(MqttError::InvalidTopic {
+                topic: topic.to_string(),
+            });
         }
         if self.inner.shutting_down.load(Ordering::SeqCst) {
             return Err(MqttError::Closed);
         }
-        self.inner.client.publish(topic, qos.to_rumqttc(), retain, payload).await.map_err(|_| MqttError::Closed)
+        self.inner
+            .client
+            .publish(topic, qos.to_rumqttc(), retain, payload)
+            .await
+            .map_err(|_| MqttError::Closed)
     }
 
     /// A receiver of the connection state (updated on every change).
@@ -177,12 +190,17 @@ impl MqttHandle {
     pub async fn wait_until_subscribed(&self, timeout: Duration) -> Result<ConnectionState, MqttError> {
         let mut rx = self.connection_state();
         let waited = tokio::time::timeout(timeout, async {
-            rx.wait_for(|s| (s.connected && s.subscribed) || s.stopped).await.map(|s| s.clone())
+            rx.wait_for(|s| (s.connected && s.subscribed) || s.stopped)
+                .await
+                .map(|s| s.clone())
         });
         match waited.await {
             Ok(Ok(s)) if !s.stopped => Ok(s),
             Ok(_) => Err(MqttError::Closed),
-            Err(_) => Err(MqttError::Timeout { after: timeout, what: "MQTT connection and subscription" }),
+            Err(_) => Err(MqttError::Timeout {
+                after: timeout,
+                what: "MQTT connection and subscription",
+            }),
         }
     }
 
@@ -217,7 +235,9 @@ impl MqttHandle {
             let graceful = async {
                 if let Some(a) = availability {
                     // Errors mean the task already stopped; the join below settles it.
-                    let _ = client.publish(a.topic, a.qos.to_rumqttc(), true, a.offline_payload).await;
+                    let _ = client
+                        .publish(a.topic, a.qos.to_rumqttc(), true, a.offline_payload)
+                        .await;
                 }
                 let _ = client.disconnect().await;
                 let _ = (&mut task).await;
@@ -227,7 +247,10 @@ impl MqttHandle {
                 Err(_) => {
                     task.abort();
                     let _ = task.await;
-                    Err(MqttError::Timeout { after: timeout, what: "graceful MQTT disconnect" })
+                    Err(MqttError::Timeout {
+                        after: timeout,
+                        what: "graceful MQTT disconnect",
+                    })
                 }
             }
         } else {
@@ -338,8 +361,10 @@ impl Driver {
         self.connected_at = Some(Instant::now());
         let pending = &mut self.eventloop.pending;
         if !self.filters.is_empty() {
-            let filters =
-                self.filters.iter().map(|f| SubscribeFilter::new(f.clone(), rumqttc::QoS::AtLeastOnce));
+            let filters = self
+                .filters
+                .iter()
+                .map(|f| SubscribeFilter::new(f.clone(), rumqttc::QoS::AtLeastOnce));
             pending.push_back(Request::Subscribe(Subscribe::new_many(filters)));
         }
         if let Some(a) = &self.availability {

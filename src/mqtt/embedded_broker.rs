@@ -12,13 +12,12 @@
 
 use std::collections::HashMap;
 use std::net::{Ipv4Addr, SocketAddr, SocketAddrV4, TcpListener as StdTcpListener};
-use std::sync::Arc;
 use std::time::Duration;
 
 use rumqttd::{Broker, Config, ConnectionSettings, RouterConfig, ServerSettings};
-use tokio::net::{TcpListener, TcpStream};
-use tokio::sync::watch;
-use tokio::task::JoinHandle;
+use tokio::net::TcpStream;
+
+use super::relay::TcpRelay;
 
 /// Limits of the embedded broker.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -61,16 +60,12 @@ pub enum EmbeddedBrokerError {
 /// A running embedded broker. Dropping it stops the relay like [`EmbeddedBroker::stop`].
 #[derive(Debug)]
 pub struct EmbeddedBroker {
-    addr: SocketAddr,
-    /// Bumped to sever every relayed connection.
-    sever_tx: Arc<watch::Sender<u64>>,
-    /// `true` once stopped.
-    stop_tx: Arc<watch::Sender<bool>>,
-    accept_task: Option<JoinHandle<()>>,
+    relay: TcpRelay,
 }
 
 fn free_loopback_port() -> Result<u16, EmbeddedBrokerError> {
-    let l = StdTcpListener::bind(SocketAddrV4::new(Ipv4Addr::LOCALHOST, 0)).map_err(EmbeddedBrokerError::Bind)?;
+    let l =
+        StdTcpListener::bind(SocketAddrV4::new(Ipv4Addr::LOCALHOST, 0)).map_err(EmbeddedBrokerError::Bind)?;
     Ok(l.local_addr().map_err(EmbeddedBrokerError::Bind)?.port())
 }
 
@@ -113,7 +108,7 @@ impl EmbeddedBroker {
     }
 
     pub async fn start_with(config: EmbeddedBrokerConfig) -> Result<Self, EmbeddedBrokerError> {
-        let runtime = tokio::runtime::Handle::try_current().map_err(|_| EmbeddedBrokerError::NoRuntime)?;
+        tokio::runtime::Handle::try_current().map_err(|_| EmbeddedBrokerError::NoRuntime)?;
         // rumqttd binds by itself, so its private port is picked free and released first.
         let private_port = free_loopback_port()?;
         let private_addr = SocketAddr::from((Ipv4Addr::LOCALHOST, private_port));
@@ -146,94 +141,31 @@ impl EmbeddedBroker {
             tokio::time::sleep(Duration::from_millis(10)).await;
         }
 
-        let listener = TcpListener::bind(SocketAddrV4::new(Ipv4Addr::LOCALHOST, 0))
+        let relay = TcpRelay::start(private_addr)
             .await
             .map_err(EmbeddedBrokerError::Bind)?;
-        let addr = listener.local_addr().map_err(EmbeddedBrokerError::Bind)?;
-        let sever_tx = Arc::new(watch::Sender::new(0u64));
-        let stop_tx = Arc::new(watch::Sender::new(false));
-        let accept_task = runtime.spawn(accept_loop(listener, private_addr, sever_tx.clone(), stop_tx.clone()));
-        tracing::info!(%addr, "embedded MQTT broker listening");
-        Ok(Self { addr, sever_tx, stop_tx, accept_task: Some(accept_task) })
+        tracing::info!(addr = %relay.addr(), "embedded MQTT broker listening");
+        Ok(Self { relay })
     }
 
     /// Loopback address clients connect to.
     pub fn addr(&self) -> SocketAddr {
-        self.addr
+        self.relay.addr()
     }
 
     /// `mqtt://127.0.0.1:PORT`.
     pub fn url(&self) -> String {
-        format!("mqtt://{}", self.addr)
+        format!("mqtt://{}", self.addr())
     }
 
     /// Drop every client connection now (as a network fault would); keep accepting new ones.
     /// Sessions and retained messages stay in the broker.
     pub fn sever_connections(&self) {
-        self.sever_tx.send_modify(|epoch| *epoch += 1);
+        self.relay.sever_connections();
     }
 
     /// Stop accepting and drop every client connection. The port is closed when this returns.
-    pub async fn stop(mut self) {
-        self.stop_tx.send_replace(true);
-        if let Some(task) = self.accept_task.take() {
-            let _ = task.await;
-        }
+    pub async fn stop(self) {
+        self.relay.stop().await;
     }
-}
-
-impl Drop for EmbeddedBroker {
-    fn drop(&mut self) {
-        self.stop_tx.send_replace(true);
-    }
-}
-
-async fn accept_loop(
-    listener: TcpListener,
-    private_addr: SocketAddr,
-    sever_tx: Arc<watch::Sender<u64>>,
-    stop_tx: Arc<watch::Sender<bool>>,
-) {
-    let mut stop_rx = stop_tx.subscribe();
-    loop {
-        let accepted = tokio::select! {
-            _ = stop_rx.wait_for(|stopped| *stopped) => break,
-            a = listener.accept() => a,
-        };
-        let (client, peer) = match accepted {
-            Ok(a) => a,
-            Err(e) => {
-                tracing::warn!(error = %e, "embedded broker accept failed");
-                continue;
-            }
-        };
-        let sever_rx = sever_tx.subscribe();
-        let stop_rx = stop_tx.subscribe();
-        tokio::spawn(relay(client, peer, private_addr, sever_rx, stop_rx));
-    }
-}
-
-async fn relay(
-    mut client: TcpStream,
-    peer: SocketAddr,
-    private_addr: SocketAddr,
-    mut sever_rx: watch::Receiver<u64>,
-    mut stop_rx: watch::Receiver<bool>,
-) {
-    let _ = client.set_nodelay(true);
-    let mut upstream = match TcpStream::connect(private_addr).await {
-        Ok(s) => s,
-        Err(e) => {
-            tracing::warn!(error = %e, %peer, "embedded broker relay cannot reach rumqttd");
-            return;
-        }
-    };
-    let _ = upstream.set_nodelay(true);
-    let epoch = *sever_rx.borrow_and_update();
-    tokio::select! {
-        _ = tokio::io::copy_bidirectional(&mut client, &mut upstream) => {}
-        _ = sever_rx.wait_for(|e| *e != epoch) => {}
-        _ = stop_rx.wait_for(|stopped| *stopped) => {}
-    }
-    // Dropping both streams closes them (the broker sees a network drop, not a DISCONNECT).
 }

@@ -7,11 +7,13 @@
 //! - [`status`]: connection state and counters.
 //! - [`client`]: the event-loop task and [`MqttHandle`].
 //! - [`embedded_broker`]: an in-process broker on a loopback port.
+//! - [`relay`]: a TCP relay that can sever connections (broker stop, fault injection).
 pub mod ack;
 pub mod backoff;
 pub mod client;
 pub mod embedded_broker;
 pub mod options;
+pub mod relay;
 pub mod status;
 
 pub use ack::{AckOutcome, AckToken};
@@ -22,4 +24,5 @@ pub use options::{
     AvailabilityOptions, BrokerUrl, ClientAuthFiles, ConnectionOptions, LastWillOptions, OptionsError, QoS,
     Scheme, TlsOptions,
 };
+pub use relay::TcpRelay;
 pub use status::{ConnectionState, MqttCounters};

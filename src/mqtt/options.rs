@@ -22,8 +22,11 @@ pub const DEFAULT_MQTT_PORT: u16 = 1883;
 pub const DEFAULT_MQTTS_PORT: u16 = 8883;
 
 /// Where system root certificates are looked for when TLS is on and no CA file is given.
-const SYSTEM_CA_BUNDLES: [&str; 3] =
-    ["/etc/ssl/certs/ca-certificates.crt", "/etc/pki/tls/certs/ca-bundle.crt", "/etc/ssl/cert.pem"];
+const SYSTEM_CA_BUNDLES: [&str; 3] = [
+    "/etc/ssl/certs/ca-certificates.crt",
+    "/etc/pki/tls/certs/ca-bundle.crt",
+    "/etc/ssl/cert.pem",
+];
 
 /// MQTT quality of service.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -200,15 +203,24 @@ impl ConnectionOptions {
             return invalid("port", "0".into());
         }
         if self.client_id.is_empty() || self.client_id.len() > 65535 {
-            return invalid("client_id", "must be 1..=65535 bytes (the broker keys the session on it)".into());
+            return invalid(
+                "client_id",
+                "must be 1..=65535 bytes (the broker keys the session on it)".into(),
+            );
         }
         if !self.keep_alive.is_zero()
             && (self.keep_alive.subsec_nanos() != 0 || self.keep_alive.as_secs() > u64::from(u16::MAX))
         {
-            return invalid("keep_alive", format!("{:?}: whole seconds, 1..=65535, or zero", self.keep_alive));
+            return invalid(
+                "keep_alive",
+                format!("{:?}: whole seconds, 1..=65535, or zero", self.keep_alive),
+            );
         }
         if self.connect_timeout.as_secs() == 0 || self.connect_timeout.subsec_nanos() != 0 {
-            return invalid("connect_timeout", format!("{:?}: whole seconds, at least 1", self.connect_timeout));
+            return invalid(
+                "connect_timeout",
+                format!("{:?}: whole seconds, at least 1", self.connect_timeout),
+            );
         }
         if self.max_inflight_outgoing == 0 {
             return invalid("max_inflight_outgoing", "0".into());
@@ -220,19 +232,28 @@ impl ConnectionOptions {
             return invalid("request_channel_capacity", "0".into());
         }
         if self.max_packet_size_bytes < 1024 {
-            return invalid("max_packet_size_bytes", format!("{} < 1024", self.max_packet_size_bytes));
+            return invalid(
+                "max_packet_size_bytes",
+                format!("{} < 1024", self.max_packet_size_bytes),
+            );
         }
         if self.backoff.min.is_zero() {
             return invalid("backoff.min", "zero".into());
         }
         if let Some(a) = &self.availability {
             if !rumqttc::valid_topic(&a.topic) || a.topic.is_empty() {
-                return invalid("availability.topic", format!("{:?} is not a valid topic name", a.topic));
+                return invalid(
+                    "availability.topic",
+                    format!("{:?} is not a valid topic name", a.topic),
+                );
             }
         }
         if let Some(will) = self.effective_last_will() {
             if !rumqttc::valid_topic(&will.topic) || will.topic.is_empty() {
-                return invalid("last_will.topic", format!("{:?} is not a valid topic name", will.topic));
+                return invalid(
+                    "last_will.topic",
+                    format!("{:?} is not a valid topic name", will.topic),
+                );
             }
         }
         Ok(())
@@ -252,7 +273,12 @@ impl ConnectionOptions {
             o.set_credentials(user.clone(), self.password.clone().unwrap_or_default());
         }
         if let Some(will) = self.effective_last_will() {
-            o.set_last_will(LastWill::new(will.topic, will.payload, will.qos.to_rumqttc(), will.retain));
+            o.set_last_will(LastWill::new(
+                will.topic,
+                will.payload,
+                will.qos.to_rumqttc(),
+                will.retain,
+            ));
         }
         if let Some(tls) = &self.tls {
             let config = build_tls_config(tls)?;
@@ -268,7 +294,9 @@ pub fn build_tls_config(tls: &TlsOptions) -> Result<rustls::ClientConfig, Option
     let provider = Arc::new(rustls::crypto::ring::default_provider());
     let builder = rustls::ClientConfig::builder_with_provider(provider)
         .with_safe_default_protocol_versions()
-        .map_err(|e| OptionsError::Tls { detail: e.to_string() })?;
+        .map_err(|e| OptionsError::Tls {
+            detail: e.to_string(),
+        })?;
 
     let ca_path = match &tls.ca_file {
         Some(p) => p.clone(),
@@ -282,7 +310,10 @@ pub fn build_tls_config(tls: &TlsOptions) -> Result<rustls::ClientConfig, Option
     let ca_certs = read_certs("CA", &ca_path)?;
     let (_added, _ignored) = roots.add_parsable_certificates(ca_certs);
     if roots.is_empty() {
-        return Err(OptionsError::NoCertificates { what: "CA", path: ca_path });
+        return Err(OptionsError::NoCertificates {
+            what: "CA",
+            path: ca_path,
+        });
     }
     let builder = builder.with_root_certificates(roots);
 
@@ -296,22 +327,37 @@ pub fn build_tls_config(tls: &TlsOptions) -> Result<rustls::ClientConfig, Option
                 path: files.key_file.clone(),
                 detail: e.to_string(),
             })?;
-            builder.with_client_auth_cert(chain, key).map_err(|e| OptionsError::Tls { detail: e.to_string() })
+            builder
+                .with_client_auth_cert(chain, key)
+                .map_err(|e| OptionsError::Tls {
+                    detail: e.to_string(),
+                })
         }
     }
 }
 
 fn read_file(what: &'static str, path: &Path) -> Result<Vec<u8>, OptionsError> {
-    std::fs::read(path).map_err(|source| OptionsError::ReadFile { what, path: path.to_path_buf(), source })
+    std::fs::read(path).map_err(|source| OptionsError::ReadFile {
+        what,
+        path: path.to_path_buf(),
+        source,
+    })
 }
 
 fn read_certs(what: &'static str, path: &Path) -> Result<Vec<CertificateDer<'static>>, OptionsError> {
     let pem = read_file(what, path)?;
     let certs = CertificateDer::pem_slice_iter(&pem)
         .collect::<Result<Vec<_>, _>>()
-        .map_err(|e| OptionsError::Pem { what, path: path.to_path_buf(), detail: e.to_string() })?;
+        .map_err(|e| OptionsError::Pem {
+            what,
+            path: path.to_path_buf(),
+            detail: e.to_string(),
+        })?;
     if certs.is_empty() {
-        return Err(OptionsError::NoCertificates { what, path: path.to_path_buf() });
+        return Err(OptionsError::NoCertificates {
+            what,
+            path: path.to_path_buf(),
+        });
     }
     Ok(certs)
 }
@@ -335,7 +381,10 @@ pub struct BrokerUrl {
 
 impl BrokerUrl {
     pub fn parse(url: &str) -> Result<Self, OptionsError> {
-        let err = |reason: &'static str| OptionsError::BrokerUrl { url: url.to_string(), reason };
+        let err = |reason: &'static str| OptionsError::BrokerUrl {
+            url: url.to_string(),
+            reason,
+        };
         let (scheme, rest) = if let Some(r) = url.strip_prefix("mqtt://") {
             (Scheme::Mqtt, r)
         } else if let Some(r) = url.strip_prefix("mqtts://") {
@@ -354,13 +403,18 @@ impl BrokerUrl {
             return Err(err("whitespace in address"));
         }
         let (host, port_text) = if let Some(v6) = authority.strip_prefix('[') {
-            let (host, after) = v6.split_once(']').ok_or_else(|| err("unclosed '[' in IPv6 address"))?;
+            let (host, after) = v6
+                .split_once(']')
+                .ok_or_else(|| err("unclosed '[' in IPv6 address"))?;
             if host.parse::<std::net::Ipv6Addr>().is_err() {
                 return Err(err("invalid IPv6 address"));
             }
             match after {
                 "" => (host, None),
-                p => (host, Some(p.strip_prefix(':').ok_or_else(|| err("junk after ']'"))?)),
+                p => (
+                    host,
+                    Some(p.strip_prefix(':').ok_or_else(|| err("junk after ']'"))?),
+                ),
             }
         } else {
             match authority.split_once(':') {
@@ -382,7 +436,11 @@ impl BrokerUrl {
             },
             Some(_) => return Err(err("port must be decimal digits")),
         };
-        Ok(Self { scheme, host: host.to_string(), port })
+        Ok(Self {
+            scheme,
+            host: host.to_string(),
+            port,
+        })
     }
 }
 
@@ -408,9 +466,17 @@ pub enum OptionsError {
     #[error("MQTT setting {name}: {detail}")]
     InvalidSetting { name: &'static str, detail: String },
     #[error("reading {what} file {path:?}: {source}")]
-    ReadFile { what: &'static str, path: PathBuf, source: std::io::Error },
+    ReadFile {
+        what: &'static str,
+        path: PathBuf,
+        source: std::io::Error,
+    },
     #[error("{what} file {path:?} is not valid PEM: {detail}")]
-    Pem { what: &'static str, path: PathBuf, detail: String },
+    Pem {
+        what: &'static str,
+        path: PathBuf,
+        detail: String,
+    },
     #[error("{what} file {path:?} holds no usable certificate")]
     NoCertificates { what: &'static str, path: PathBuf },
     #[error("TLS requested without a CA file and no system CA bundle found")]
@@ -428,9 +494,19 @@ mod tests {
     #[test]
     fn parses_plain_and_tls_urls() {
         let u = BrokerUrl::parse("mqtt://broker.brannock.example:1884").unwrap();
-        assert_eq!(u, BrokerUrl { scheme: Scheme::Mqtt, host: "broker.brannock.example".into(), port: 1884 });
+        assert_eq!(
+            u,
+            BrokerUrl {
+                scheme: Scheme::Mqtt,
+                host: "broker.brannock.example".into(),
+                port: 1884
+            }
+        );
         let u = BrokerUrl::parse("mqtts://10.0.0.5:8884/").unwrap();
-        assert_eq!((u.scheme, u.host.as_str(), u.port), (Scheme::Mqtts, "10.0.0.5", 8884));
+        assert_eq!(
+            (u.scheme, u.host.as_str(), u.port),
+            (Scheme::Mqtts, "10.0.0.5", 8884)
+        );
         assert_eq!(BrokerUrl::parse("mqtt://localhost").unwrap().port, 1883);
         assert_eq!(BrokerUrl::parse("mqtts://localhost").unwrap().port, 8883);
         let u = BrokerUrl::parse("mqtt://[::1]:1999").unwrap();
@@ -480,7 +556,8 @@ mod tests {
 
     #[test]
     fn builds_rumqttc_options() {
-        let mut o = ConnectionOptions::new("127.0.0.1", 1883, "halotank-test").with_availability("site/ht/status");
+        let mut o =
+            ConnectionOptions::new("127.0.0.1", 1883, "halotank-test").with_availability("site/ht/status");
         o.username = Some("ops".into());
         o.password = Some("secret".into());
         let m = o.to_mqtt_options().unwrap();
@@ -495,7 +572,10 @@ mod tests {
         assert_eq!(&will.message[..], b"offline");
         assert!(will.retain);
         let login = m.credentials().unwrap();
-        assert_eq!((login.username.as_str(), login.password.as_str()), ("ops", "secret"));
+        assert_eq!(
+            (login.username.as_str(), login.password.as_str()),
+            ("ops", "secret")
+        );
     }
 
     #[test]
@@ -514,13 +594,52 @@ mod tests {
     fn settings_rumqttc_would_panic_on_are_typed_errors() {
         let base = ConnectionOptions::new("127.0.0.1", 1883, "c");
         let cases: Vec<(&str, ConnectionOptions)> = vec![
-            ("client_id", ConnectionOptions { client_id: String::new(), ..base.clone() }),
-            ("keep_alive", ConnectionOptions { keep_alive: Duration::from_millis(500), ..base.clone() }),
-            ("max_inflight_outgoing", ConnectionOptions { max_inflight_outgoing: 0, ..base.clone() }),
-            ("connect_timeout", ConnectionOptions { connect_timeout: Duration::ZERO, ..base.clone() }),
-            ("receive_window", ConnectionOptions { receive_window: 0, ..base.clone() }),
-            ("host", ConnectionOptions { host: " ".into(), ..base.clone() }),
-            ("availability.topic", base.clone().with_availability("bad/+/topic")),
+            (
+                "client_id",
+                ConnectionOptions {
+                    client_id: String::new(),
+                    ..base.clone()
+                },
+            ),
+            (
+                "keep_alive",
+                ConnectionOptions {
+                    keep_alive: Duration::from_millis(500),
+                    ..base.clone()
+                },
+            ),
+            (
+                "max_inflight_outgoing",
+                ConnectionOptions {
+                    max_inflight_outgoing: 0,
+                    ..base.clone()
+                },
+            ),
+            (
+                "connect_timeout",
+                ConnectionOptions {
+                    connect_timeout: Duration::ZERO,
+                    ..base.clone()
+                },
+            ),
+            (
+                "receive_window",
+                ConnectionOptions {
+                    receive_window: 0,
+                    ..base.clone()
+                },
+            ),
+            (
+                "host",
+                ConnectionOptions {
+                    host: " ".into(),
+                    ..base.clone()
+                },
+            ),
+            (
+                "availability.topic",
+                base.clone().with_availability("bad/+/topic"),
+            ),
         ];
         for (name, o) in cases {
             match o.to_mqtt_options() {
@@ -528,17 +647,34 @@ mod tests {
                 other => panic!("{name}: expected InvalidSetting, got {:?}", other.map(|_| ())),
             }
         }
-        assert!(ConnectionOptions { keep_alive: Duration::ZERO, ..base }.to_mqtt_options().is_ok());
+        assert!(ConnectionOptions {
+            keep_alive: Duration::ZERO,
+            ..base
+        }
+        .to_mqtt_options()
+        .is_ok());
     }
 
     #[test]
     fn tls_file_errors_are_typed() {
         let dir = tempfile::tempdir().unwrap();
-        let missing = TlsOptions { ca_file: Some(dir.path().join("nope.pem")), client_auth: None };
-        assert!(matches!(build_tls_config(&missing), Err(OptionsError::ReadFile { what: "CA", .. })));
+        let missing = TlsOptions {
+            ca_file: Some(dir.path().join("nope.pem")),
+            client_auth: None,
+        };
+        assert!(matches!(
+            build_tls_config(&missing),
+            Err(OptionsError::ReadFile { what: "CA", .. })
+        ));
         let junk = dir.path().join("junk.pem");
         std::fs::write(&junk, b"not a certificate at all").unwrap();
-        let junk_opts = TlsOptions { ca_file: Some(junk), client_auth: None };
-        assert!(matches!(build_tls_config(&junk_opts), Err(OptionsError::NoCertificates { .. })));
+        let junk_opts = TlsOptions {
+            ca_file: Some(junk),
+            client_auth: None,
+        };
+        assert!(matches!(
+            build_tls_config(&junk_opts),
+            Err(OptionsError::NoCertificates { .. })
+        ));
     }
 }
