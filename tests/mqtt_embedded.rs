@@ -89,3 +89,15 @@ async fn two_embedded_brokers_are_independent() {
     // The first message the subscriber on b sees is b's own.
     assert_eq!(&sub.next_publish().await.payload[..], b"from-b");
 }
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn embedded_out_of_order_acks_are_held() {
+    let (_broker, t) = target().await;
+    run(scenarios::out_of_order_acks_are_held(&t)).await;
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn embedded_nack_redelivers() {
+    let (_broker, t) = target().await;
+    run(scenarios::nack_redelivers(&t)).await;
+}

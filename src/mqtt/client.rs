@@ -23,7 +23,7 @@ use tokio::sync::{mpsc, watch};
 use tokio::task::JoinHandle;
 use tokio::time::Instant;
 
-use super::ack::{AckGate, AckOutcome, AckToken};
+use super::ack::{AckGate, AckOutcome, AckToken, NackOutcome};
 use super::backoff::Backoff;
 use super::options::{AvailabilityOptions, ConnectionOptions, OptionsError, QoS};
 use super::status::{ConnectionState, MqttCounters};
@@ -157,6 +157,13 @@ impl MqttHandle {
         self.inner.gate.ack(token, &self.inner.client)
     }
 
+    /// Give up on a delivery the caller cannot store: the connection is restarted (clean
+    /// DISCONNECT, reconnect after the minimum backoff) so the broker redelivers this message
+    /// and every later un-acked one.
+    pub fn nack(&self, token: AckToken) -> NackOutcome {
+        self.inner.gate.nack(token, &self.inner.client)
+    }
+
     /// Publish; waits for room in the request channel (back-pressure), not for the broker.
     /// Queued QoS 1 publishes survive reconnects.
     pub async fn publish(
@@ -211,7 +218,7 @@ impl MqttHandle {
             messages_received: c.messages_received.load(Ordering::Relaxed),
             acks_sent: self.inner.gate.written_count(),
             stale_acks_dropped: self.inner.gate.stale_count(),
-            acks_queued: self.inner.gate.queued_len() as u64,
+            acks_waiting: self.inner.gate.waiting_len() as u64,
             connect_failures: c.connect_failures.load(Ordering::Relaxed),
             disconnects: c.disconnects.load(Ordering::Relaxed),
         }
@@ -303,7 +310,7 @@ impl Driver {
                     if let Flow::Stop = self.on_event(event).await {
                         break;
                     }
-                    self.gate.flush_overflow(&self.client);
+                    self.gate.flush(&self.client);
                 }
                 Err(error) => {
                     self.on_error(&error);
@@ -348,6 +355,11 @@ impl Driver {
             Event::Outgoing(Outgoing::PubAck(_) | Outgoing::PubRec(_)) => self.gate.note_written(),
             Event::Outgoing(Outgoing::Disconnect) if self.shutting_down.load(Ordering::SeqCst) => {
                 return Flow::Stop;
+            }
+            Event::Outgoing(Outgoing::Disconnect) => {
+                // A nack's restart: the broker closes the socket, poll() errors, we reconnect.
+                tracing::info!("MQTT connection restart requested (nack)");
+                self.backoff.reset();
             }
             _ => {}
         }
@@ -398,8 +410,8 @@ impl Driver {
 
     async fn on_publish(&mut self, publish: Publish) {
         self.counters.messages_received.fetch_add(1, Ordering::Relaxed);
-        let generation = self.state_tx.borrow().generation;
         let qos = QoS::from_rumqttc(publish.qos);
+        let ack = self.gate.issue(publish.pkid, qos);
         let message = InboundMessage {
             topic: publish.topic,
             payload: publish.payload.to_vec(),
@@ -407,7 +419,7 @@ impl Driver {
             retain: publish.retain,
             duplicate: publish.dup,
             received_at: Utc::now(),
-            ack: AckToken::new(generation, publish.pkid, qos),
+            ack,
         };
         // Awaiting here is the back-pressure: the broker's in-flight window caps QoS 1.
         if self.inbound_tx.send(message).await.is_err() && !self.consumer_gone {

@@ -16,7 +16,7 @@ pub mod options;
 pub mod relay;
 pub mod status;
 
-pub use ack::{AckOutcome, AckToken};
+pub use ack::{AckOutcome, AckToken, NackOutcome};
 pub use backoff::{Backoff, BackoffPolicy};
 pub use client::{InboundMessage, MqttError, MqttHandle};
 pub use embedded_broker::{EmbeddedBroker, EmbeddedBrokerConfig, EmbeddedBrokerError};

@@ -47,8 +47,8 @@ pub struct MqttCounters {
     pub acks_sent: u64,
     /// Acks dropped because their connection had ended (the broker will redeliver).
     pub stale_acks_dropped: u64,
-    /// Acks waiting for room in the request channel right now.
-    pub acks_queued: u64,
+    /// Acks held for receive order or waiting for room in the request channel right now.
+    pub acks_waiting: u64,
     /// Connection attempts that failed before a CONNACK.
     pub connect_failures: u64,
     /// Established connections that later broke.

@@ -264,3 +264,92 @@ pub async fn forget_session(addr: SocketAddr, client_id: &str) {
     let peer = Peer::connect(addr, client_id, true).await;
     peer.disconnect().await;
 }
+
+/// Acks given out of receive order are held and sent in order: the broker sees no
+/// out-of-order PUBACK (rumqttd would drop the connection and lose a message), nothing is
+/// redelivered afterwards.
+pub async fn out_of_order_acks_are_held(t: &Target) {
+    let base = unique("brannock");
+    let topic = format!("{base}/smolt-4/probe");
+    let client_id = unique("halotank-order");
+    let o = options(t.adapter_addr, &client_id);
+    let filters = [topic.clone()];
+    let mut peer = Peer::connect(t.peer_addr, &unique("probe-sim"), true).await;
+
+    let (h, mut rx) = start(&o, &filters);
+    h.wait_until_subscribed(WAIT).await.unwrap();
+    for p in ["r1", "r2", "r3"] {
+        peer.publish_acked(&topic, p.as_bytes(), false).await;
+    }
+    let r1 = recv(&mut rx).await;
+    let r2 = recv(&mut rx).await;
+    let r3 = recv(&mut rx).await;
+    assert_eq!(
+        (r1.ack.sequence(), r2.ack.sequence(), r3.ack.sequence()),
+        (0, 1, 2)
+    );
+    assert_eq!(h.ack(r3.ack), AckOutcome::Held);
+    assert_eq!(h.ack(r2.ack), AckOutcome::Held);
+    assert_eq!(h.counters().acks_waiting, 2);
+    assert_eq!(h.ack(r1.ack), AckOutcome::Sent);
+    assert_eq!(h.counters().acks_waiting, 0);
+    h.shutdown(WAIT).await.unwrap();
+    assert_eq!(h.connection_state().borrow().reconnects, 0);
+    assert_eq!(h.counters().disconnects, 0, "broker must not have dropped us");
+    drop(rx);
+
+    let (h2, mut rx2) = start(&o, &filters);
+    h2.wait_until_subscribed(WAIT).await.unwrap();
+    peer.publish_acked(&topic, b"marker", false).await;
+    let next = recv(&mut rx2).await;
+    assert_eq!(
+        next.payload, b"marker",
+        "all three were acked: nothing to redeliver"
+    );
+    assert_eq!(h2.ack(next.ack), AckOutcome::Sent);
+    h2.shutdown(WAIT).await.unwrap();
+    peer.disconnect().await;
+    forget_session(t.peer_addr, &client_id).await;
+}
+
+/// A nack restarts the connection and the broker redelivers the nacked message.
+pub async fn nack_redelivers(t: &Target) {
+    let base = unique("brannock");
+    let topic = format!("{base}/parr-1/probe");
+    let client_id = unique("halotank-nack");
+    let o = options(t.adapter_addr, &client_id);
+    let filters = [topic.clone()];
+    let mut peer = Peer::connect(t.peer_addr, &unique("probe-sim"), true).await;
+
+    let (h, mut rx) = start(&o, &filters);
+    h.wait_until_subscribed(WAIT).await.unwrap();
+    peer.publish_acked(&topic, b"n1", false).await;
+    peer.publish_acked(&topic, b"n2", false).await;
+    let n1 = recv(&mut rx).await;
+    let n2 = recv(&mut rx).await;
+    assert_eq!(h.ack(n1.ack), AckOutcome::Sent);
+    assert_eq!(h.nack(n2.ack), halotank::mqtt::NackOutcome::Restarting);
+
+    let mut state = h.connection_state();
+    tokio::time::timeout(
+        WAIT,
+        state.wait_for(|s| s.generation >= 2 && s.connected && s.subscribed),
+    )
+    .await
+    .expect("restart in time")
+    .unwrap();
+    let again = recv(&mut rx).await;
+    assert_eq!(
+        again.payload, b"n2",
+        "the nacked message (and only it) comes back"
+    );
+    assert_eq!(again.ack.generation(), 2);
+    assert_eq!(h.ack(again.ack), AckOutcome::Sent);
+    peer.publish_acked(&topic, b"marker", false).await;
+    let next = recv(&mut rx).await;
+    assert_eq!(next.payload, b"marker");
+    assert_eq!(h.ack(next.ack), AckOutcome::Sent);
+    h.shutdown(WAIT).await.unwrap();
+    peer.disconnect().await;
+    forget_session(t.peer_addr, &client_id).await;
+}
