@@ -13,6 +13,7 @@ use mqtt_support::Peer;
 const TEST_LIMIT: Duration = Duration::from_secs(60);
 
 async fn target() -> (Arc<EmbeddedBroker>, Target) {
+    mqtt_support::init_logging();
     let broker = Arc::new(EmbeddedBroker::start().await.expect("embedded broker"));
     let addr = broker.addr();
     let b = broker.clone();
@@ -21,6 +22,7 @@ async fn target() -> (Arc<EmbeddedBroker>, Target) {
         adapter_addr: addr,
         sever: Box::new(move || b.sever_connections()),
         downgrades_qos: false,
+        marks_redelivery_dup: false,
     };
     (broker, t)
 }

@@ -356,7 +356,11 @@ mod tests {
         assert_eq!(gate.waiting_len(), 2);
         assert_eq!(gate.ack(a, &client), AckOutcome::Sent);
         let queued: Vec<u16> = gate.lock().overflow.iter().map(|(pkid, _)| *pkid).collect();
-        assert_eq!(queued, vec![12, 13], "pkid 11 went out first, then 12 and 13 in order");
+        assert_eq!(
+            queued,
+            vec![12, 13],
+            "pkid 11 went out first, then 12 and 13 in order"
+        );
         assert!(gate.lock().held.is_empty());
     }
 

@@ -133,6 +133,7 @@ impl MqttHandle {
             ever_connected: false,
             saved_publishes: Vec::new(),
             consumer_gone: false,
+            drain_deadline: None,
         };
         let task = runtime.spawn(driver.run());
         let shared = Shared {
@@ -295,21 +296,29 @@ struct Driver {
     /// them if the next CONNACK says the broker lost our session, so they are re-queued then.
     saved_publishes: Vec<Publish>,
     consumer_gone: bool,
+    /// Set once our DISCONNECT is written during shutdown.
+    drain_deadline: Option<Instant>,
 }
 
-enum Flow {
-    Continue,
-    Stop,
-}
+/// How long to wait for the broker to close the connection after our DISCONNECT.
+const DRAIN_AFTER_DISCONNECT: Duration = Duration::from_secs(2);
 
 impl Driver {
     async fn run(mut self) {
         loop {
-            match self.eventloop.poll().await {
-                Ok(event) => {
-                    if let Flow::Stop = self.on_event(event).await {
+            let polled = match self.drain_deadline {
+                None => self.eventloop.poll().await,
+                Some(deadline) => match tokio::time::timeout_at(deadline, self.eventloop.poll()).await {
+                    Ok(polled) => polled,
+                    Err(_) => {
+                        tracing::debug!("MQTT broker did not close the connection after DISCONNECT");
                         break;
                     }
+                },
+            };
+            match polled {
+                Ok(event) => {
+                    self.on_event(event).await;
                     self.gate.flush(&self.client);
                 }
                 Err(error) => {
@@ -332,7 +341,7 @@ impl Driver {
         });
     }
 
-    async fn on_event(&mut self, event: Event) -> Flow {
+    async fn on_event(&mut self, event: Event) {
         match event {
             Event::Incoming(Incoming::ConnAck(connack)) => self.on_connack(connack.session_present),
             Event::Incoming(Incoming::Publish(publish)) => self.on_publish(publish).await,
@@ -354,7 +363,11 @@ impl Driver {
             }
             Event::Outgoing(Outgoing::PubAck(_) | Outgoing::PubRec(_)) => self.gate.note_written(),
             Event::Outgoing(Outgoing::Disconnect) if self.shutting_down.load(Ordering::SeqCst) => {
-                return Flow::Stop;
+                // Keep reading until the broker closes the connection: then it has processed
+                // everything before the DISCONNECT (acks, the offline message). Closing at once
+                // could reset the socket and lose those bytes, or let a quick restart with the
+                // same client id take the session over before they arrive.
+                self.drain_deadline = Some(Instant::now() + DRAIN_AFTER_DISCONNECT);
             }
             Event::Outgoing(Outgoing::Disconnect) => {
                 // A nack's restart: the broker closes the socket, poll() errors, we reconnect.
@@ -363,7 +376,6 @@ impl Driver {
             }
             _ => {}
         }
-        Flow::Continue
     }
 
     fn on_connack(&mut self, session_present: bool) {
@@ -410,6 +422,10 @@ impl Driver {
 
     async fn on_publish(&mut self, publish: Publish) {
         self.counters.messages_received.fetch_add(1, Ordering::Relaxed);
+        if self.drain_deadline.is_some() {
+            // Shutting down: leave it un-acked; the broker redelivers it next session.
+            return;
+        }
         let qos = QoS::from_rumqttc(publish.qos);
         let ack = self.gate.issue(publish.pkid, qos);
         let message = InboundMessage {
@@ -439,8 +455,11 @@ impl Driver {
                 _ => None,
             })
             .collect();
+        let shutting_down = self.shutting_down.load(Ordering::SeqCst);
         let was_connected = self.connected_at.take();
         match was_connected {
+            // The broker closing the connection after our DISCONNECT is not a disconnect.
+            Some(_) if shutting_down => {}
             Some(at) => {
                 self.counters.disconnects.fetch_add(1, Ordering::Relaxed);
                 self.backoff.connection_ended(at.elapsed());
@@ -449,20 +468,22 @@ impl Driver {
                 self.counters.connect_failures.fetch_add(1, Ordering::Relaxed);
             }
         }
-        let shutting_down = self.shutting_down.load(Ordering::SeqCst);
-        if shutting_down {
+        let text = if shutting_down {
             tracing::debug!(%error, "MQTT connection closed during shutdown");
+            None
         } else {
             tracing::warn!(%error, "MQTT connection error");
-        }
-        let text = error.to_string();
+            Some(error.to_string())
+        };
         self.state_tx.send_modify(|s| {
             if s.connected {
                 s.since = Utc::now();
             }
             s.connected = false;
             s.subscribed = false;
-            s.last_error = Some(text);
+            if text.is_some() {
+                s.last_error = text;
+            }
         });
     }
 }

@@ -8,7 +8,29 @@
 //! own threads stay parked on a private loopback port until the process exits.
 //!
 //! What it supports (checked by `tests/mqtt_embedded.rs`, rumqttd 0.20.0 source read too):
-//! FACTS_PLACEHOLDER
+//! - Persistent sessions: yes. A `clean_session = false` client that reconnects with the
+//!   same id gets `session_present = true`, keeps its subscriptions, and receives what was
+//!   published while it was away (kept in rumqttd's in-memory commit log; 10 segments of
+//!   16 MiB per topic, oldest dropped first). Sessions live in memory only: gone with the process.
+//! - QoS 1 redelivery of un-acked messages after the subscriber reconnects: yes, both after a
+//!   graceful DISCONNECT and after a network drop. rumqttd rewinds the session's log cursor
+//!   to the oldest un-acked message and replays from there, as fresh PUBLISHes (new packet
+//!   ids, DUP flag not set). So the crash/redelivery tests run against it; Mosquitto runs
+//!   them too when `HALOTANK_TEST_MQTT` is set.
+//! - Acks must come in order: an out-of-order PUBACK makes rumqttd drop the connection, and
+//!   the message at the head of its in-flight queue is then never redelivered (seen in its
+//!   source, `Outgoing::register_ack`, and in a trial run). The adapter releases acks in
+//!   receive order, so this cannot happen through it.
+//! - QoS: delivers at the subscription's QoS, not min(publish, subscription) as MQTT 3.1.1
+//!   §3.8.4 says: a QoS 0 publish reaches a QoS 1 subscriber as QoS 1 and needs an ack.
+//! - In-flight limit: `max_inflight_count` (default here 100) un-acked messages per
+//!   subscriber connection; more wait in the log.
+//! - Retained messages and last will: yes (will discarded on a clean DISCONNECT).
+//! - Quirk seen in tests: right after a client reconnects with its old client id, rumqttd
+//!   sometimes drops a different, unrelated connection (its source notes that connection
+//!   ids are reused); clients reconnect and carry on.
+//! - Not supported here: TLS, websockets, authentication, MQTT 5 (features off).
+//! - rumqttd logs ordinary disconnects at ERROR level; filter `rumqttd` in the log settings.
 
 use std::collections::HashMap;
 use std::net::{Ipv4Addr, SocketAddr, SocketAddrV4, TcpListener as StdTcpListener};

@@ -20,6 +20,16 @@ pub fn unique(prefix: &str) -> String {
 }
 
 /// Adapter options for a test broker: fast reconnects, persistent session.
+/// Logs to the test output when `RUST_LOG` is set (e.g. `RUST_LOG=rumqttd=warn,halotank=debug`).
+pub fn init_logging() {
+    if std::env::var_os("RUST_LOG").is_some() {
+        let _ = tracing_subscriber::fmt()
+            .with_env_filter(tracing_subscriber::EnvFilter::from_default_env())
+            .with_test_writer()
+            .try_init();
+    }
+}
+
 pub fn options(addr: SocketAddr, client_id: &str) -> ConnectionOptions {
     let mut o = ConnectionOptions::new(addr.ip().to_string(), addr.port(), client_id);
     o.keep_alive = Duration::from_secs(5);
@@ -54,9 +64,23 @@ impl Peer {
         let (client, mut eventloop) = AsyncClient::new(o, 64);
         let (tx, events) = mpsc::unbounded_channel();
         let task = tokio::spawn(async move {
-            while let Ok(ev) = eventloop.poll().await {
-                if tx.send(ev).is_err() {
-                    break;
+            loop {
+                match eventloop.poll().await {
+                    Ok(ev) => {
+                        if tx.send(ev).is_err() {
+                            break;
+                        }
+                    }
+                    Err(e) => {
+                        // rumqttd 0.20 sometimes drops an unrelated client right after another
+                        // client reconnects with a reused connection id; polling again
+                        // reconnects and resends what was in flight.
+                        eprintln!("test peer connection lost, reconnecting: {e}");
+                        if tx.is_closed() {
+                            break;
+                        }
+                        tokio::time::sleep(Duration::from_millis(20)).await;
+                    }
                 }
             }
         });

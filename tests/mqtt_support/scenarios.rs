@@ -18,6 +18,9 @@ pub struct Target {
     /// The broker delivers at min(publish QoS, subscription QoS) as MQTT 3.1.1 §3.8.4 says.
     /// rumqttd 0.20 does not: it delivers a QoS 0 publish at the subscription's QoS 1.
     pub downgrades_qos: bool,
+    /// The broker sets DUP on a QoS 1 redelivery (Mosquitto does; rumqttd 0.20 replays from
+    /// its log without it).
+    pub marks_redelivery_dup: bool,
 }
 
 fn start(
@@ -157,6 +160,7 @@ pub async fn unacked_redelivered_acked_not(t: &Target) {
     assert!(state.session_present, "broker must resume the persistent session");
     let again = recv(&mut rx2).await;
     assert_eq!(again.payload, b"m1", "un-acked message must be redelivered first");
+    assert_eq!(again.duplicate, t.marks_redelivery_dup);
     let queued = recv(&mut rx2).await;
     assert_eq!(queued.payload, b"m2-while-away");
     assert_eq!(h2.ack(again.ack), AckOutcome::Sent);
@@ -237,7 +241,7 @@ pub async fn slow_consumer_loses_nothing(t: &Target) {
     let topic = format!("{base}/holding-1/probe");
     let mut o = options(t.adapter_addr, &unique("halotank-slow"));
     o.receive_window = 2;
-    let (h, mut rx) = start(&o, &[topic.clone()]);
+    let (h, mut rx) = start(&o, std::slice::from_ref(&topic));
     h.wait_until_subscribed(WAIT).await.unwrap();
     let mut peer = Peer::connect(t.peer_addr, &unique("probe-sim"), true).await;
     const N: usize = 60;
