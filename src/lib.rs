@@ -5,6 +5,8 @@
 //!
 //! - [`seawater`]: published seawater and osmotic equations (PSS-78, EOS-80,
 //!   UNESCO 1983, TEOS-10), one file per equation family.
+//! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`cli`]: the command-line front end.
 pub mod cli;
+pub mod mqtt;
 pub mod seawater;
