@@ -5,6 +5,10 @@
 //!
 //! - [`seawater`]: published seawater and osmotic equations (PSS-78, EOS-80,
 //!   UNESCO 1983, TEOS-10), one file per equation family.
+//! - [`config`]: the TOML configuration, parsed once into validated structs.
+//! - [`ingest`]: pure ingest core: payload parsing, validation, pairing, routing.
 //! - [`cli`]: the command-line front end.
 pub mod cli;
+pub mod config;
+pub mod ingest;
 pub mod seawater;
