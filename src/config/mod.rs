@@ -169,3 +169,6 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
         tanks,
     })
 }
+
+#[cfg(test)]
+mod tests;
