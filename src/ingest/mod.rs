@@ -243,3 +243,6 @@ impl Ingestor {
         }
     }
 }
+
+#[cfg(test)]
+mod tests;
