@@ -84,14 +84,14 @@ pub fn filter_covers(general: &str, specific: &str) -> bool {
     if dollar_blocked(g[0], s[0]) {
         return false;
     }
-    for i in 0..g.len() {
-        if g[i] == "#" {
+    for (i, general_level) in g.iter().enumerate() {
+        if *general_level == "#" {
             return true;
         }
         let Some(level) = s.get(i) else {
             return false;
         };
-        match (g[i], *level) {
+        match (*general_level, *level) {
             (_, "#") => return false,
             ("+", _) => {}
             (a, b) if a == b => {}

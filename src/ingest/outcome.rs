@@ -177,7 +177,11 @@ mod tests {
         let mut seen = std::collections::HashSet::new();
         for reason in RejectReason::ALL {
             let code = reason.as_str();
-            assert!(code.chars().all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '_'), "{code}");
+            assert!(
+                code.chars()
+                    .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || c == '_'),
+                "{code}"
+            );
             assert!(seen.insert(code), "duplicate {code}");
             assert_eq!(serde_json::to_value(reason).unwrap(), serde_json::json!(code));
             assert_eq!(reason.to_string(), code);
