@@ -69,6 +69,10 @@ impl KeyPath {
     pub(crate) fn push(&mut self, segment: KeySegment) {
         self.0.push(segment);
     }
+
+    pub(crate) fn pop(&mut self) {
+        self.0.pop();
+    }
 }
 
 impl From<Vec<KeySegment>> for KeyPath {

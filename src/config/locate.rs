@@ -74,7 +74,7 @@ fn find_in_table(table: &DeTable<'_>, offset: usize, path: &mut KeyPath) -> bool
         if find_in_value(value, offset, path) || contains(&key.span(), offset) {
             return true;
         }
-        *path = KeyPath::from(path.segments()[..path.segments().len() - 1].to_vec());
+        path.pop();
     }
     false
 }
@@ -88,7 +88,7 @@ fn find_in_value(value: &Spanned<DeValue<'_>>, offset: usize, path: &mut KeyPath
                 if find_in_value(item, offset, path) {
                     return true;
                 }
-                *path = KeyPath::from(path.segments()[..path.segments().len() - 1].to_vec());
+                path.pop();
             }
             contains(&value.span(), offset)
         }

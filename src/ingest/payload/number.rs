@@ -3,6 +3,7 @@
 //! Surrounding whitespace is trimmed. The grammar is that of a JSON number with an optional leading `+`
 //! and optional leading or trailing digits around the point (`.5`, `5.`). `NaN` and `inf`/`Infinity`
 //! (any case, any sign) are `non_finite`; anything else (`12,5`, `0x10`, empty) is `not_numeric`.
+//! A bare number carries no time: the reading time is the time the message was received.
 use super::{finite, names_non_finite, PayloadError};
 use crate::ingest::outcome::RejectReason;
 
