@@ -1,12 +1,19 @@
 //! halotank: salinity, osmolality and tonicity for hatchery and holding tanks.
 //!
 //! The crate is split into a pure core (no I/O, no clock, no async) and thin
-//! adapters at the edges:
+//! adapters at the edges.
 //!
+//! Pure core:
 //! - [`seawater`]: published seawater and osmotic equations (PSS-78, EOS-80,
 //!   UNESCO 1983, TEOS-10), one file per equation family.
+//! - [`config`]: the TOML configuration, parsed once into validated structs.
+//! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
+//!
+//! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`cli`]: the command-line front end.
 pub mod cli;
+pub mod config;
+pub mod ingest;
 pub mod mqtt;
 pub mod seawater;

@@ -3,6 +3,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
 
@@ -19,6 +20,8 @@ pub struct Cli {
 pub enum Command {
     /// Convert conductivity and temperature to salinity, density, osmolality and more (or back).
     Convert(convert::ConvertArgs),
+    /// Check a configuration file and summarise its tanks and topics.
+    CheckConfig(check_config::CheckConfigArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -26,6 +29,7 @@ pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Convert(args) => convert::run(args),
+        Command::CheckConfig(args) => check_config::run(args),
     };
     match result {
         Ok(code) => code,
