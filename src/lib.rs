@@ -5,6 +5,8 @@
 //!
 //! - [`seawater`]: published seawater and osmotic equations (PSS-78, EOS-80,
 //!   UNESCO 1983, TEOS-10), one file per equation family.
+//! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
 //! - [`cli`]: the command-line front end.
 pub mod cli;
 pub mod seawater;
+pub mod storage;

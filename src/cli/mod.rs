@@ -4,6 +4,9 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 pub mod convert;
+pub mod history;
+pub mod status;
+pub mod time_arg;
 
 /// Salinity, osmolality and tonicity for hatchery and holding tanks.
 #[derive(Debug, Parser)]
@@ -18,6 +21,10 @@ pub struct Cli {
 pub enum Command {
     /// Convert conductivity and temperature to salinity, density, osmolality and more (or back).
     Convert(convert::ConvertArgs),
+    /// List one tank's stored readings with their derived values (CSV or JSON).
+    History(history::HistoryArgs),
+    /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
+    Status(status::StatusArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -25,6 +32,8 @@ pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Convert(args) => convert::run(args),
+        Command::History(args) => history::run(args),
+        Command::Status(args) => status::run(args),
     };
     match result {
         Ok(code) => code,
