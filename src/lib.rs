@@ -11,9 +11,11 @@
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
+//! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
 //! - [`cli`]: the command-line front end.
 pub mod cli;
 pub mod config;
 pub mod ingest;
 pub mod mqtt;
 pub mod seawater;
+pub mod storage;

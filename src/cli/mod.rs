@@ -6,6 +6,9 @@ use clap::{Parser, Subcommand};
 pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
+pub mod history;
+pub mod status;
+pub mod time_arg;
 
 /// Salinity, osmolality and tonicity for hatchery and holding tanks.
 #[derive(Debug, Parser)]
@@ -22,6 +25,10 @@ pub enum Command {
     Convert(convert::ConvertArgs),
     /// Check a configuration file and summarise its tanks and topics.
     CheckConfig(check_config::CheckConfigArgs),
+    /// List one tank's stored readings with their derived values (CSV or JSON).
+    History(history::HistoryArgs),
+    /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
+    Status(status::StatusArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -30,6 +37,8 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Convert(args) => convert::run(args),
         Command::CheckConfig(args) => check_config::run(args),
+        Command::History(args) => history::run(args),
+        Command::Status(args) => status::run(args),
     };
     match result {
         Ok(code) => code,

@@ -1,0 +1,23 @@
+//! SQLite storage adapter: schema migrations, the single batching writer, retention, and read-only queries.
+//!
+//! - [`schema`]: versioned migrations and connection settings (WAL, `synchronous=FULL`, busy timeout).
+//! - [`writer`]: one thread owns the write connection; commits batches and reports the acks they cover.
+//! - [`retention`]: folds old readings into hourly summaries.
+//! - [`queries`]: read-only connections for `history` and `status`.
+pub mod codec;
+pub mod error;
+pub mod insert;
+pub mod queries;
+pub mod retention;
+pub mod rows;
+pub mod schema;
+pub mod writer;
+
+pub use error::StorageError;
+pub use queries::{Reader, ReasonCount, TankReadingCount};
+pub use retention::{RetentionReport, RetentionSettings};
+pub use rows::{DaemonStateRow, HourlyRow, HourlyStats, ReadingRow, RejectionRow, PAYLOAD_PREFIX_MAX_BYTES};
+pub use schema::SCHEMA_VERSION;
+pub use writer::{
+    spawn_writer, CommitReport, WriteItem, WriterHandle, WriterJoinHandle, WriterSettings, WriterSummary,
+};
