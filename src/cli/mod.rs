@@ -7,6 +7,8 @@ pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
 pub mod history;
+pub mod logging;
+pub mod run;
 pub mod status;
 pub mod time_arg;
 
@@ -25,6 +27,8 @@ pub enum Command {
     Convert(convert::ConvertArgs),
     /// Check a configuration file and summarise its tanks and topics.
     CheckConfig(check_config::CheckConfigArgs),
+    /// Run the daemon: MQTT probes in, derived readings to SQLite, tank state out.
+    Run(run::RunArgs),
     /// List one tank's stored readings with their derived values (CSV or JSON).
     History(history::HistoryArgs),
     /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
@@ -37,6 +41,7 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Convert(args) => convert::run(args),
         Command::CheckConfig(args) => check_config::run(args),
+        Command::Run(args) => run::run(args),
         Command::History(args) => history::run(args),
         Command::Status(args) => status::run(args),
     };

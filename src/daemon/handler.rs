@@ -1,0 +1,139 @@
+//! One MQTT message in, one storage item out: ingest, derive, and count. No I/O but logging.
+use chrono::{DateTime, Utc};
+
+use super::acker::Pending;
+use super::counters::Counters;
+use super::tank_state::TankState;
+use crate::config::Config;
+use crate::ingest::{AcceptedReading, IngestOutcome, Ingestor, LogDecision, LogLimiter, Rejection};
+use crate::mqtt::AckToken;
+use crate::seawater::derive::derive_from_conductivity;
+use crate::storage::{ReadingRow, RejectionRow, WriteItem};
+
+/// Rejection code for a reading the science core refused (outside the equations' range).
+pub const SCIENCE_REFUSED: &str = "outside_science_range";
+
+/// Seconds between two log lines of the same rejection reason.
+const REJECTION_LOG_INTERVAL_S: i64 = 10;
+
+/// Turns messages into storage items and keeps the counts.
+#[derive(Debug)]
+pub struct MessageHandler {
+    ingestor: Ingestor,
+    tank_names: Vec<String>,
+    counters: Counters,
+    log_limit: LogLimiter<&'static str>,
+}
+
+impl MessageHandler {
+    pub fn new(config: &Config) -> Self {
+        Self {
+            ingestor: Ingestor::new(config),
+            tank_names: config.tanks.iter().map(|t| t.name.clone()).collect(),
+            counters: Counters::default(),
+            log_limit: LogLimiter::new(chrono::Duration::seconds(REJECTION_LOG_INTERVAL_S)),
+        }
+    }
+
+    pub fn counters(&self) -> &Counters {
+        &self.counters
+    }
+
+    /// The storage item for one message; `ack` is released once that item is committed.
+    pub fn handle(
+        &mut self,
+        topic: &str,
+        payload: &[u8],
+        received_at: DateTime<Utc>,
+        ack: Option<AckToken>,
+    ) -> WriteItem<Pending> {
+        match self.ingestor.handle(topic, payload, received_at) {
+            IngestOutcome::Accepted(readings) => match self.derive_all(&readings) {
+                Ok(rows) => {
+                    self.counters.accepted_messages += 1;
+                    self.counters.readings += rows.len() as u64;
+                    let state = rows.iter().max_by_key(|r| r.time).and_then(|row| {
+                        let index = readings.first().map(|r| r.tank_index)?;
+                        let name = self.tank_names.get(index)?;
+                        Some((row.time, TankState::from_row(name, row)))
+                    });
+                    WriteItem::Readings(rows, Pending { ack, state })
+                }
+                Err(detail) => {
+                    self.counters.reject_code(SCIENCE_REFUSED);
+                    let first = readings.first();
+                    let row = RejectionRow {
+                        time: received_at,
+                        topic: topic.to_string(),
+                        tank_id: first.map(|r| r.tank_id.clone()),
+                        reason: SCIENCE_REFUSED.to_string(),
+                        detail,
+                        payload_prefix: prefix(payload),
+                    };
+                    self.log_rejection(SCIENCE_REFUSED, &row.topic, &row.detail, received_at);
+                    WriteItem::Rejection(row, Pending { ack, state: None })
+                }
+            },
+            IngestOutcome::Rejected(rejection) => {
+                self.counters.reject(rejection.reason);
+                self.log_rejection(rejection.reason.as_str(), topic, &rejection.detail, received_at);
+                WriteItem::Rejection(
+                    rejection_row(rejection, received_at),
+                    Pending { ack, state: None },
+                )
+            }
+            IngestOutcome::Ignored(reason) => {
+                self.counters.ignore(reason);
+                WriteItem::AckOnly(Pending { ack, state: None })
+            }
+            IngestOutcome::Buffered => {
+                self.counters.buffered += 1;
+                WriteItem::AckOnly(Pending { ack, state: None })
+            }
+        }
+    }
+
+    /// Derives every reading of a message; one refusal refuses the message (all or nothing).
+    fn derive_all(&self, readings: &[AcceptedReading]) -> Result<Vec<ReadingRow>, String> {
+        readings
+            .iter()
+            .map(|r| {
+                let derived =
+                    derive_from_conductivity(r.conductivity_ms_cm, r.temperature_c, r.pressure_dbar, 0.0)
+                        .map_err(|e| format!("reading at {}: {e}", r.time))?;
+                Ok(ReadingRow {
+                    tank_id: r.tank_id.clone(),
+                    time: r.time,
+                    source_topic: r.topic.clone(),
+                    conductivity_reported: r.reported_conductivity,
+                    conductivity_unit: r.reported_unit.symbol().to_string(),
+                    conductivity_ms_cm: r.conductivity_ms_cm,
+                    temperature_c: r.temperature_c,
+                    pressure_dbar: r.pressure_dbar,
+                    derived,
+                })
+            })
+            .collect()
+    }
+
+    fn log_rejection(&mut self, code: &'static str, topic: &str, detail: &str, now: DateTime<Utc>) {
+        if let LogDecision::Emit { suppressed } = self.log_limit.check(&code, now) {
+            tracing::warn!(reason = code, %topic, suppressed, "rejected message: {detail}");
+        }
+    }
+}
+
+fn rejection_row(rejection: Rejection, received_at: DateTime<Utc>) -> RejectionRow {
+    RejectionRow {
+        time: received_at,
+        topic: rejection.topic,
+        tank_id: rejection.tank_id,
+        reason: rejection.reason.as_str().to_string(),
+        detail: rejection.detail,
+        payload_prefix: rejection.payload_prefix,
+    }
+}
+
+fn prefix(payload: &[u8]) -> Vec<u8> {
+    payload[..payload.len().min(crate::ingest::PAYLOAD_PREFIX_BYTES)].to_vec()
+}

@@ -1,0 +1,213 @@
+//! The daemon: wires the MQTT adapter, the pure ingest core, the science core and the SQLite writer.
+//!
+//! ```text
+//! MQTT client ──InboundMessage──▶ ingest loop (MessageHandler) ──WriteItem──▶ writer thread (SQLite)
+//!      ▲                                                                          │
+//!      └──────────── acks, retained tank state ◀── acker ◀──CommitReport──────────┘
+//! ```
+//! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
+//! ignored messages travel through the writer too, so acks leave in the order messages arrived.
+pub mod acker;
+pub mod connection;
+pub mod counters;
+pub mod handler;
+pub mod shutdown;
+pub mod tank_state;
+
+use std::time::Duration;
+
+use anyhow::Context;
+use chrono::Utc;
+use tokio::sync::watch;
+
+use crate::config::Config;
+use crate::ingest::subscriptions;
+use crate::mqtt::{ConnectionState, MqttHandle};
+use crate::storage::{spawn_writer, DaemonStateRow, RetentionSettings, WriteItem, WriterSettings};
+
+use acker::{run_acker, AckerSummary, Pending};
+use handler::MessageHandler;
+
+/// How often the daemon records its own state (broker link, counters) in the database.
+const STATE_INTERVAL: Duration = Duration::from_secs(5);
+/// How often retention folds old readings.
+const RETENTION_INTERVAL: Duration = Duration::from_secs(3600);
+/// A broker outage longer than this is logged as a warning, once per interval.
+const OUTAGE_WARNING: chrono::TimeDelta = chrono::TimeDelta::seconds(60);
+/// How long a graceful MQTT shutdown may take.
+const MQTT_SHUTDOWN_TIMEOUT: Duration = Duration::from_secs(10);
+
+/// What a daemon run did, returned after a graceful stop.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct RunSummary {
+    pub messages: u64,
+    pub readings_stored: u64,
+    pub duplicates: u64,
+    pub rejected: u64,
+    pub ignored: u64,
+    pub acks_sent: u64,
+}
+
+/// Runs the daemon until `shutdown` turns true; then stops taking messages, commits, acks,
+/// publishes `offline` and returns.
+pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
+    let started_at = Utc::now();
+    let window = usize::from(config.broker.max_inflight).max(1);
+    // Acks wait for commits, and the broker sends at most `window` unacked QoS 1 messages: a batch
+    // larger than the window would never fill, so flush_rows is capped at it.
+    let settings = WriterSettings {
+        flush_rows: config.storage.flush_rows.max(1),
+        flush_ms: config.storage.flush_ms.max(1),
+        ..WriterSettings::default()
+    }
+    .cap_flush_rows(window);
+    let (writer, reports, writer_thread) = spawn_writer::<Pending>(&config.storage.path, settings)
+        .with_context(|| format!("cannot open the database {}", config.storage.path.display()))?;
+
+    let options = connection::connection_options(&config)?;
+    let filters = subscriptions(&config);
+    let (mqtt, mut inbound) =
+        MqttHandle::start(&options, &filters).context("cannot start the MQTT client")?;
+    tracing::info!(
+        broker = %format!("{}:{}", config.broker.host, config.broker.port),
+        client_id = %config.broker.client_id,
+        tanks = config.tanks.len(),
+        filters = ?filters,
+        db = %config.storage.path.display(),
+        "halotank daemon started"
+    );
+    let acker = tokio::spawn(run_acker(
+        reports,
+        mqtt.clone(),
+        config.publish.topic_prefix.clone(),
+    ));
+
+    let mut handler = MessageHandler::new(&config);
+    let mut link = mqtt.connection_state();
+    let mut state_tick = tokio::time::interval(STATE_INTERVAL);
+    let mut retention_tick = tokio::time::interval(RETENTION_INTERVAL);
+    let retention = RetentionSettings {
+        readings_days: config.storage.retention_days,
+        rejections_days: Some(config.storage.retention_days),
+    };
+    let mut last_outage_warning = started_at;
+    let mut messages = 0u64;
+
+    loop {
+        tokio::select! {
+            biased;
+            changed = shutdown.changed() => {
+                if changed.is_err() || *shutdown.borrow() {
+                    break;
+                }
+            }
+            message = inbound.recv() => {
+                let Some(message) = message else {
+                    tracing::warn!("MQTT client stopped; shutting down");
+                    break;
+                };
+                messages += 1;
+                let item = handler.handle(&message.topic, &message.payload, message.received_at, Some(message.ack));
+                if writer.send(item).await.is_err() {
+                    tracing::error!("database writer stopped; shutting down");
+                    break;
+                }
+            }
+            _ = link.changed() => {
+                let state = link.borrow_and_update().clone();
+                log_link_change(&state);
+            }
+            _ = state_tick.tick() => {
+                let now = Utc::now();
+                let state = link.borrow().clone();
+                if !state.connected && now - state.since > OUTAGE_WARNING && now - last_outage_warning > OUTAGE_WARNING {
+                    last_outage_warning = now;
+                    tracing::warn!(
+                        since = %state.since,
+                        minutes = (now - state.since).num_minutes(),
+                        last_error = state.last_error.as_deref().unwrap_or(""),
+                        "broker unreachable; readings wait at the broker"
+                    );
+                }
+                let row = daemon_state_row(started_at, &state, handler.counters());
+                if writer.send(WriteItem::DaemonState(row)).await.is_err() {
+                    break;
+                }
+            }
+            _ = retention_tick.tick() => {
+                match writer.run_retention(Utc::now(), retention).await {
+                    Ok(report) if report.readings_folded > 0 => tracing::info!(
+                        folded = report.readings_folded,
+                        hourly_rows = report.hourly_rows_written,
+                        cutoff = %report.readings_cutoff,
+                        "retention folded old readings into hourly summaries"
+                    ),
+                    Ok(_) => {}
+                    Err(err) => tracing::error!(error = %err, "retention failed; will retry"),
+                }
+            }
+        }
+    }
+
+    // Stop taking messages: what is still queued is not acked and the broker redelivers it.
+    drop(inbound);
+    let final_state = daemon_state_row(started_at, &link.borrow().clone(), handler.counters());
+    let _ = writer.send(WriteItem::DaemonState(final_state)).await;
+    if let Err(err) = writer.flush().await {
+        tracing::error!(error = %err, "final commit failed");
+    }
+    drop(writer);
+    let writer_result = tokio::task::spawn_blocking(move || writer_thread.join()).await;
+    let acked: AckerSummary = acker.await.unwrap_or_default();
+    if let Err(err) = mqtt.shutdown(MQTT_SHUTDOWN_TIMEOUT).await {
+        tracing::warn!(error = %err, "MQTT shutdown incomplete");
+    }
+    match writer_result {
+        Ok(Ok(Ok(_))) => {}
+        Ok(Ok(Err(err))) => tracing::error!(error = %err, "database writer ended with an error"),
+        _ => tracing::error!("database writer thread panicked"),
+    }
+    let counters = handler.counters();
+    let summary = RunSummary {
+        messages,
+        readings_stored: acked.readings_inserted,
+        duplicates: acked.duplicates,
+        rejected: counters.rejected_total(),
+        ignored: counters.ignored_total(),
+        acks_sent: acked.acks_sent,
+    };
+    tracing::info!(?summary, "halotank daemon stopped");
+    Ok(summary)
+}
+
+fn daemon_state_row(
+    started_at: chrono::DateTime<Utc>,
+    link: &ConnectionState,
+    counters: &counters::Counters,
+) -> DaemonStateRow {
+    DaemonStateRow {
+        updated_at: Utc::now(),
+        started_at,
+        broker_connected: link.connected,
+        broker_state_since: link.since,
+        reconnect_count: link.reconnects,
+        accepted_count: counters.accepted_messages,
+        rejected_count: counters.rejected_total(),
+        ignored_count: counters.ignored_total(),
+    }
+}
+
+fn log_link_change(state: &ConnectionState) {
+    if state.connected {
+        tracing::info!(
+            reconnects = state.reconnects,
+            session_present = state.session_present,
+            "connected to the broker"
+        );
+    } else if !state.stopped {
+        tracing::warn!(
+            error = state.last_error.as_deref().unwrap_or(""),
+            "lost the broker; reconnecting with backoff"
+        );
+    }
+}
