@@ -3,6 +3,7 @@ use halotank::seawater::practical_salinity::{
     conductivity_from_practical_salinity, practical_salinity_from_conductivity,
 };
 use proptest::prelude::*;
+use proptest::test_runner::FileFailurePersistence;
 
 /// Conductivity (mS/cm) drawn evenly in log between 0.005 (fresh water) and 70 (strong brine).
 fn conductivity() -> impl Strategy<Value = f64> {

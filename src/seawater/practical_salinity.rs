@@ -6,7 +6,9 @@
 //! so that the scale is continuous at SP = 2. Temperatures enter as ITS-90 and are converted to IPTS-68.
 use serde::{Deserialize, Serialize};
 
-use super::error::{check_conductivity, check_pressure, check_temperature, ScienceError};
+use super::error::{
+    check_conductivity, check_pressure, check_temperature, ScienceError, MAX_TEMPERATURE_C, MIN_TEMPERATURE_C,
+};
 use super::temperature_scale::t68_from_t90;
 
 /// Where a Practical Salinity lies against PSS-78's validity range.
@@ -94,14 +96,22 @@ fn dpss78_drtx(rtx: f64, ft68: f64) -> f64 {
     a + ft68 * b
 }
 
-/// Hill et al. (1986) correction a0/(1 + 1.5X + X²) + b0 f(t)/(1 + Y^½ + Y + Y^1.5), X = 400 Rt, Y = 100 Rt.
-#[inline]
-fn hill_correction(rtx: f64, ft68: f64) -> f64 {
+/// Hill et al. (1986) correction a0/(1 + 1.5X + X²) + b0 f(t)/(1 + Y^½ + Y + Y^1.5), X = 400 Rt, Y = 100 Rt,
+/// returned as numerator and denominator so callers can share one division.
+#[inline(always)]
+fn hill_correction_fraction(rtx: f64, ft68: f64) -> (f64, f64) {
     let x = 400.0 * rtx * rtx;
     let sqrt_y = 10.0 * rtx;
     let part1 = 1.0 + x * (1.5 + x);
     let part2 = 1.0 + sqrt_y * (1.0 + sqrt_y * (1.0 + sqrt_y));
-    (A0 * part2 + B0 * ft68 * part1) / (part1 * part2)
+    (A0 * part2 + B0 * ft68 * part1, part1 * part2)
+}
+
+/// Hill et al. (1986) correction subtracted from PSS-78 below SP 2 (see [`hill_correction_fraction`]).
+#[inline]
+fn hill_correction(rtx: f64, ft68: f64) -> f64 {
+    let (num, den) = hill_correction_fraction(rtx, ft68);
+    num / den
 }
 
 /// d/d√Rt of [`hill_correction`] (differentiated from Hill et al. 1986).
@@ -116,31 +126,33 @@ fn dhill_correction_drtx(rtx: f64, ft68: f64) -> f64 {
     -(A0 * dpart1 / (part1 * part1) + B0 * ft68 * dpart2 / (part2 * part2))
 }
 
-/// The Hill ratio at SP = 2 and the √Rt at which PSS-78 gives exactly SP = 2 (TEOS-10 `gsw_Hill_ratio_at_SP2`).
+/// Starting estimate of √Rt at PSS-78 SP = 2: a cubic in t68 fitted by halotank to the exact root
+/// over -3.1..45.1 °C (largest error 3.2e-5; checked by a unit test).
+#[inline(always)]
+fn rtx_at_sp2_start(t68: f64) -> f64 {
+    0.264_145 + t68 * (1.9428e-4 + t68 * (-3.0254e-6 + t68 * 2.315e-8))
+}
+
+/// √Rt at which PSS-78 gives exactly SP = 2, for t68 in the accepted range (-3..45 °C).
+///
+/// Two Newton steps from [`rtx_at_sp2_start`]: with S″/(2S′) ≈ 2 there, a start error of 3.2e-5 falls to
+/// ~2e-9 and then below 1e-17, under rounding (verified over the range by a unit test).
+#[inline(always)]
+fn rtx_at_sp2(t68: f64, ft68: f64) -> f64 {
+    let mut rtx = rtx_at_sp2_start(t68);
+    for _ in 0..2 {
+        rtx -= (pss78_of_rtx(rtx, ft68) - 2.0) / dpss78_drtx(rtx, ft68);
+    }
+    rtx
+}
+
+/// The Hill ratio at SP = 2 and the √Rt at which PSS-78 gives SP = 2 (TEOS-10 `gsw_Hill_ratio_at_SP2`).
 ///
 /// The ratio is 2 divided by the uncorrected Hill et al. (1986) value at that √Rt; multiplying the Hill
 /// formula by it makes the extended scale meet PSS-78 exactly at SP = 2 (IOC et al. 2010, TEOS-10 Manual).
-fn hill_ratio_at_sp2(t68: f64, ft68: f64) -> Result<(f64, f64), ScienceError> {
-    // Starting estimate of √Rt at SP = 2: a cubic in t68 fitted by halotank to the exact root over
-    // -3.1..45.1 °C (max error 3.2e-5). Newton's method below makes it exact.
-    let mut rtx = 0.264_145 + t68 * (1.9428e-4 + t68 * (-3.0254e-6 + t68 * 2.315e-8));
-    let mut converged = false;
-    for _ in 0..8 {
-        let step = (pss78_of_rtx(rtx, ft68) - 2.0) / dpss78_drtx(rtx, ft68);
-        rtx -= step;
-        if step.abs() <= 1e-12 {
-            // Quadratic convergence: the error left after a step this small is below rounding.
-            converged = true;
-            break;
-        }
-    }
-    if !converged || !rtx.is_finite() {
-        return Err(ScienceError::NoConvergence {
-            what: "PSS-78 conductivity ratio at SP = 2 (Hill ratio)",
-        });
-    }
-    let hill_raw_at_sp2 = 2.0 - hill_correction(rtx, ft68);
-    Ok((2.0 / hill_raw_at_sp2, rtx))
+fn hill_ratio_at_sp2(t68: f64, ft68: f64) -> (f64, f64) {
+    let rtx = rtx_at_sp2(t68, ft68);
+    (2.0 / (2.0 - hill_correction(rtx, ft68)), rtx)
 }
 
 /// Practical Salinity from in-situ conductivity (mS/cm), temperature (°C ITS-90), sea pressure (dbar).
@@ -156,8 +168,14 @@ pub fn practical_salinity_from_conductivity(
     temperature_c: f64,
     pressure_dbar: f64,
 ) -> Result<f64, ScienceError> {
-    check_conductivity(conductivity_ms_cm)?;
-    sp_from_checked_ratio(conductivity_ms_cm / C3515_MS_CM, temperature_c, pressure_dbar)
+    if !inputs_usable(conductivity_ms_cm, temperature_c, pressure_dbar) {
+        return Err(input_error(conductivity_ms_cm, temperature_c, pressure_dbar));
+    }
+    checked_result(pss78_unchecked(
+        conductivity_ms_cm / C3515_MS_CM,
+        temperature_c,
+        pressure_dbar,
+    ))
 }
 
 /// Practical Salinity from the conductivity ratio R = C(S,t,p)/C(35,15,0), temperature (°C ITS-90), p (dbar).
@@ -169,8 +187,34 @@ pub fn practical_salinity_from_conductivity_ratio(
     temperature_c: f64,
     pressure_dbar: f64,
 ) -> Result<f64, ScienceError> {
-    check_conductivity(conductivity_ratio)?;
-    sp_from_checked_ratio(conductivity_ratio, temperature_c, pressure_dbar)
+    if !inputs_usable(conductivity_ratio, temperature_c, pressure_dbar) {
+        return Err(input_error(conductivity_ratio, temperature_c, pressure_dbar));
+    }
+    checked_result(pss78_unchecked(conductivity_ratio, temperature_c, pressure_dbar))
+}
+
+/// One branch for the whole input check on the fast path (NaN fails every comparison).
+#[inline(always)]
+fn inputs_usable(conductivity: f64, temperature_c: f64, pressure_dbar: f64) -> bool {
+    conductivity >= 0.0
+        && conductivity < f64::INFINITY
+        && temperature_c >= MIN_TEMPERATURE_C
+        && temperature_c <= MAX_TEMPERATURE_C
+        && pressure_dbar >= 0.0
+        && pressure_dbar <= MAX_PRESSURE_DBAR
+}
+
+/// The typed error for inputs [`inputs_usable`] refused.
+#[cold]
+#[inline(never)]
+fn input_error(conductivity: f64, temperature_c: f64, pressure_dbar: f64) -> ScienceError {
+    match check_conductivity(conductivity)
+        .and_then(|()| check_temperature_and_pressure(temperature_c, pressure_dbar))
+    {
+        Err(error) => error,
+        // Unreachable while the two checks agree; still a typed error rather than a panic.
+        Ok(()) => ScienceError::InvalidConductivity { value: conductivity },
+    }
 }
 
 /// Checks temperature and pressure; refuses pressure above [`MAX_PRESSURE_DBAR`].
@@ -188,12 +232,10 @@ fn check_temperature_and_pressure(temperature_c: f64, pressure_dbar: f64) -> Res
     Ok(())
 }
 
-/// PSS-78 from a ratio already known to be finite and non-negative.
+/// PSS-78 with the Hill extension, for inputs already checked by [`inputs_usable`].
 #[inline(always)]
-fn sp_from_checked_ratio(r: f64, temperature_c: f64, pressure_dbar: f64) -> Result<f64, ScienceError> {
-    check_temperature_and_pressure(temperature_c, pressure_dbar)?;
+fn pss78_unchecked(r: f64, temperature_c: f64, p: f64) -> f64 {
     let t68 = t68_from_t90(temperature_c);
-    let p = pressure_dbar;
     // Rp = 1 + p(e1 + e2 p + e3 p²)/(1 + d1 t + d2 t² + (d3 + d4 t) R)   (UNESCO 1983, p. 7)
     // Rt = R/(Rp rt(t)),  f(t) = (t − 15)/(1 + k(t − 15)).
     // Written with a single division: Rt = R·den/((den + num)·rt) and f = dt/q share 1/(q·(den + num)·rt).
@@ -206,30 +248,47 @@ fn sp_from_checked_ratio(r: f64, temperature_c: f64, pressure_dbar: f64) -> Resu
     let ft68 = dt * s * inv;
     let rt = r * den * q * inv;
     let rtx = rt.sqrt();
-    let mut sp = pss78_of_rtx(rtx, ft68);
+    let sp = pss78_of_rtx(rtx, ft68);
     if sp < 2.0 {
-        sp = hill_extended(sp, rtx, t68, ft68)?;
-    }
-    if !sp.is_finite() {
-        Err(ScienceError::InvalidSalinity { value: sp })
-    } else if sp >= 0.0 {
-        Ok(sp)
-    } else if sp >= -ROUNDING_SP {
-        // Rounding residue at the Hill formula's zero crossing, not a negative salinity.
-        Ok(0.0)
+        hill_extended(sp, rtx, t68, ft68)
     } else {
-        Err(ScienceError::InvalidSalinity { value: sp })
+        sp
+    }
+}
+
+/// Hill et al. (1986) value for SP < 2, scaled by the Hill ratio at SP = 2 (TEOS-10 `gsw_SP_from_C`).
+///
+/// ratio · (S − n₁/d₁) with ratio = 2/(2 − n₂/d₂) is evaluated as 2(S d₁ − n₁) d₂ / ((2 d₂ − n₂) d₁).
+#[inline(never)]
+fn hill_extended(sp_pss78: f64, rtx: f64, t68: f64, ft68: f64) -> f64 {
+    let (n1, d1) = hill_correction_fraction(rtx, ft68);
+    let (n2, d2) = hill_correction_fraction(rtx_at_sp2(t68, ft68), ft68);
+    2.0 * (sp_pss78 * d1 - n1) * d2 / ((2.0 * d2 - n2) * d1)
+}
+
+/// Accepts a computed SP, turning rounding residue just below 0 into 0 and refusing anything else unusable.
+#[inline(always)]
+fn checked_result(sp: f64) -> Result<f64, ScienceError> {
+    if sp >= 0.0 && sp < f64::INFINITY {
+        Ok(sp)
+    } else {
+        unusable_result(sp)
     }
 }
 
 /// Size of rounding residue at SP = 0 treated as 0 rather than refused (halotank choice; ~1e4 ulp of 0.008).
 const ROUNDING_SP: f64 = 1e-12;
 
-/// Hill et al. (1986) value for SP < 2, scaled by the Hill ratio at SP = 2 (TEOS-10 `gsw_SP_from_C`).
+/// Slow path of [`checked_result`].
+#[cold]
 #[inline(never)]
-fn hill_extended(sp_pss78: f64, rtx: f64, t68: f64, ft68: f64) -> Result<f64, ScienceError> {
-    let (hill_ratio, _) = hill_ratio_at_sp2(t68, ft68)?;
-    Ok(hill_ratio * (sp_pss78 - hill_correction(rtx, ft68)))
+fn unusable_result(sp: f64) -> Result<f64, ScienceError> {
+    if (-ROUNDING_SP..0.0).contains(&sp) {
+        // Rounding residue at the Hill formula's zero crossing, not a negative salinity.
+        Ok(0.0)
+    } else {
+        Err(ScienceError::InvalidSalinity { value: sp })
+    }
 }
 
 /// In-situ conductivity (mS/cm) from Practical Salinity, temperature (°C ITS-90), sea pressure (dbar).
@@ -295,7 +354,7 @@ fn solve_rtx_pss78(sp: f64, ft68: f64) -> Result<f64, ScienceError> {
 
 /// √Rt with Hill-extended S(√Rt) = sp, for 0 ≤ sp < 2 (on the rising branch of the Hill formula).
 fn solve_rtx_hill(sp: f64, t68: f64, ft68: f64) -> Result<f64, ScienceError> {
-    let (hill_ratio, rtx_at_sp2) = hill_ratio_at_sp2(t68, ft68)?;
+    let (hill_ratio, rtx_at_sp2) = hill_ratio_at_sp2(t68, ft68);
     // Start on the rising branch: S ≈ 2 Rt/Rt(2) well above SP ~ 0.1, and never below √Rt = 0.01,
     // above the Hill formula's zero crossing (√Rt ≈ 0.0056).
     let guess = (rtx_at_sp2 * (sp / 2.0).sqrt()).max(0.01);
@@ -402,25 +461,36 @@ mod tests {
     #[test]
     fn extension_is_continuous_at_sp_2() {
         // TEOS-10 (IOC et al. 2010): the Hill ratio makes the extended scale equal PSS-78 at SP = 2.
-        for t in [-3.0, 0.0, 15.0, 30.0, 45.0] {
+        for i in -300..=4500 {
+            let t = f64::from(i) / 100.0;
             let t68 = t68_from_t90(t);
             let ft68 = temperature_factor(t68);
-            let (ratio, rtx2) = hill_ratio_at_sp2(t68, ft68).unwrap();
-            assert!((pss78_of_rtx(rtx2, ft68) - 2.0).abs() < 1e-14);
+            let (ratio, rtx2) = hill_ratio_at_sp2(t68, ft68);
+            assert!((pss78_of_rtx(rtx2, ft68) - 2.0).abs() < 1e-14, "t = {t}");
             let hill = ratio * (pss78_of_rtx(rtx2, ft68) - hill_correction(rtx2, ft68));
             assert!((hill - 2.0).abs() < 1e-14, "t = {t}: {hill}");
+            // The forward function's fused form gives the same value at the seam.
+            let fused = hill_extended(pss78_of_rtx(rtx2, ft68), rtx2, t68, ft68);
+            assert!((fused - 2.0).abs() < 1e-14, "t = {t}: {fused}");
         }
     }
 
     #[test]
-    fn hill_ratio_start_estimate_is_close() {
-        // The cubic start of hill_ratio_at_sp2 is within 1e-4 of the converged root over the whole range.
-        for i in -30..=450 {
-            let t68 = t68_from_t90(f64::from(i) / 10.0);
+    fn two_newton_steps_reach_the_sp_2_root() {
+        // The cubic start is within 3.3e-5 of the root over the accepted range (the bound the two-step
+        // argument of rtx_at_sp2 relies on), and two steps agree with twenty to rounding.
+        for i in -300..=4500 {
+            let t68 = t68_from_t90(f64::from(i) / 100.0);
             let ft68 = temperature_factor(t68);
-            let start = 0.264_145 + t68 * (1.9428e-4 + t68 * (-3.0254e-6 + t68 * 2.315e-8));
-            let (_, root) = hill_ratio_at_sp2(t68, ft68).unwrap();
-            assert!((start - root).abs() < 1e-4, "t68 = {t68}");
+            let mut exact = rtx_at_sp2_start(t68);
+            for _ in 0..20 {
+                exact -= (pss78_of_rtx(exact, ft68) - 2.0) / dpss78_drtx(exact, ft68);
+            }
+            assert!((rtx_at_sp2_start(t68) - exact).abs() < 3.3e-5, "t68 = {t68}");
+            assert!(
+                (rtx_at_sp2(t68, ft68) - exact).abs() <= 4.0 * f64::EPSILON * exact,
+                "t68 = {t68}"
+            );
         }
     }
 
