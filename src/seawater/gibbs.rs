@@ -29,7 +29,7 @@ pub const MAX_ABSOLUTE_SALINITY_G_KG: f64 = 120.0;
 const Z_PER_PA: f64 = 1e-8;
 
 /// IAPWS-08 g₁₀₀ and g₁₁₀, the coefficients of x² ln x (Table 2); g₁(y) = g₁₀₀ + g₁₁₀ y.
-const G100: f64 = 5812.814_566_267_32;
+const G100: f64 = 5_812.814_566_267_32;
 const G110: f64 = 851.226_734_946_706;
 
 /// Pure-water polynomial gW = Σ_j y^j Σ_k g_jk z^k, J/kg; row j lists g_j0, g_j1, ... (IAPWS-09 / Feistel 2003).
@@ -372,7 +372,7 @@ mod tests {
         // ρ = 1/g_p: 1028.10718 kg/m³ at SSO, 0 °C, 0 dbar (gsw 3.6.23 gsw.rho_t_exact = 1028.1071845749);
         // IAPWS-08 Table 8a quotes 0.102810720e4 with IAPWS-95 water, 2e-8 relative away.
         let rho = 1.0 / gibbs_p_m3_kg(SSO, 0.0, 0.0).unwrap();
-        assert!(close(rho, 1028.107_184_574_85, 1e-12), "ρ {rho}");
+        assert!(close(rho, 1_028.107_184_574_85, 1e-12), "ρ {rho}");
         assert!(close(rho, 0.102_810_720e4, 5e-8));
     }
 

@@ -267,6 +267,25 @@ mod tests {
         assert!(water_potential_bar(-1.0, f64::INFINITY).is_err());
     }
 
+    proptest::proptest! {
+        #[test]
+        fn osmolality_and_osmotic_pressure_rise_with_salinity(
+            sa in 0.0..60.0_f64,
+            extra in 1e-3..10.0_f64,
+            t in -2.0..40.0_f64,
+            p in 0.0..1000.0_f64,
+        ) {
+            // Adding salt lowers the chemical potential of water (TEOS-10: ∂μW/∂SA < 0), so the
+            // osmolality and the osmotic pressure must both rise with SA at fixed t and p.
+            let (low, _) = osmolality_and_coefficient(sa, t, p).unwrap();
+            let (high, _) = osmolality_and_coefficient(sa + extra, t, p).unwrap();
+            proptest::prop_assert!(high > low, "{} -> {}", low, high);
+            let pi_low = osmotic_pressure_bar(sa, t, p).unwrap();
+            let pi_high = osmotic_pressure_bar(sa + extra, t, p).unwrap();
+            proptest::prop_assert!(pi_high > pi_low, "{} -> {}", pi_low, pi_high);
+        }
+    }
+
     #[test]
     fn bad_input_is_a_typed_error() {
         assert!(matches!(
