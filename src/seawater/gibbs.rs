@@ -25,6 +25,9 @@ pub const CELSIUS_ZERO_K: f64 = 273.15;
 /// documented with reduced accuracy up to about 120 g/kg near atmospheric pressure (IAPWS-08, from memory).
 pub const MAX_ABSOLUTE_SALINITY_G_KG: f64 = 120.0;
 
+/// Highest sea pressure accepted, dbar: IAPWS-08 and IAPWS-09 are valid to 100 MPa absolute (about 10⁴ dbar).
+pub const MAX_PRESSURE_DBAR: f64 = 10_000.0;
+
 /// dz/dP for P in Pa: z = p_dbar/10⁴ and 1 dbar = 10⁴ Pa.
 const Z_PER_PA: f64 = 1e-8;
 
@@ -207,6 +210,18 @@ pub fn check_absolute_salinity(absolute_salinity_g_kg: f64) -> Result<(), Scienc
     }
 }
 
+/// Checks a sea pressure (dbar): finite, not negative, at most [`MAX_PRESSURE_DBAR`].
+pub fn check_gibbs_pressure(pressure_dbar: f64) -> Result<(), ScienceError> {
+    check_pressure(pressure_dbar)?;
+    if pressure_dbar <= MAX_PRESSURE_DBAR {
+        Ok(())
+    } else {
+        Err(ScienceError::InvalidPressure {
+            value_dbar: pressure_dbar,
+        })
+    }
+}
+
 /// Validates SA, t, p and returns their reduced variables.
 fn checked(
     absolute_salinity_g_kg: f64,
@@ -215,7 +230,7 @@ fn checked(
 ) -> Result<Reduced, ScienceError> {
     check_absolute_salinity(absolute_salinity_g_kg)?;
     check_temperature(temperature_c)?;
-    check_pressure(pressure_dbar)?;
+    check_gibbs_pressure(pressure_dbar)?;
     Ok(Reduced::new(absolute_salinity_g_kg, temperature_c, pressure_dbar))
 }
 
@@ -324,13 +339,13 @@ mod tests {
     fn iapws08_check_values_at_standard_ocean_surface() {
         // IAPWS-08 Table 8a (SA = 0.03516504 kg/kg, T = 273.15 K, p = 101325 Pa), saline column, recalled
         // from memory and confirmed to every printed digit by Python gsw 3.6.23 gsw.gibbs (its output is in
-        // tests/vectors/gibbs_gsw.csv). Checked to 5e-9 relative, half a unit in the 9th of the 9 printed digits.
+        // tests/vectors/gibbs_gsw.csv). Checked to 5e-9 relative: half a unit in the 9th printed digit.
         // gS = −0.101342743e3 J/kg cancels gW: g(SSO, 0 °C, 0 dbar) ≈ 0 by the IAPWS-08 reference state.
         let g = gibbs_j_kg(SSO, 0.0, 0.0).unwrap();
         let g_w = gibbs_j_kg(0.0, 0.0, 0.0).unwrap();
         assert!(close(g_w, 0.101_342_743e3, 5e-9), "gW {g_w}");
-        // Saline gS: gsw gives −101.3427417 (g total = 1.4e-6 J/kg, not 0, from the IAPWS-09 fit of gW); the
-        // recalled −0.101342743e3 matches to 8 digits, so this one is checked to 2e-8 (its 9th digit is memory).
+        // Saline gS: gsw gives −101.3427417 (g total = 1.4e-6 J/kg, not 0, from the IAPWS-09 fit of gW);
+        // the recalled −0.101342743e3 matches to 8 digits, so it is checked to 2e-8 (9th digit: memory).
         assert!(close(g - g_w, -0.101_342_743e3, 2e-8), "gS {}", g - g_w);
         assert!(g.abs() < 2e-6, "g {g}");
         // Saline g_S = 0.639974067e5 J/kg per kg/kg = 63.9974067 J/kg per g/kg.
@@ -436,6 +451,10 @@ mod tests {
         ));
         assert!(matches!(
             gibbs_sa_p_m3_kg_per_g_kg(35.0, 10.0, -1.0),
+            Err(ScienceError::InvalidPressure { .. })
+        ));
+        assert!(matches!(
+            gibbs_j_kg(35.0, 10.0, 10_000.5),
             Err(ScienceError::InvalidPressure { .. })
         ));
         // ∂g/∂SA diverges at SA = 0: refused rather than −inf.

@@ -4,10 +4,10 @@
 //! Definitions follow the TEOS-10 Manual (IOC, SCOR & IAPSO 2010; osmotic coefficient and osmotic pressure
 //! sections, §3.40–3.41 from memory) and the TEOS-10 GSW functions `gsw_osmotic_coefficient_t_exact` and
 //! `gsw_osmotic_pressure_t_exact`.
-use super::error::{check_pressure, check_temperature, ScienceError};
+use super::error::{check_temperature, ScienceError};
 use super::gibbs::{
-    check_absolute_salinity, lowering_q, lowering_q_dz, pure_water_g, pure_water_g_dz, Reduced,
-    CELSIUS_ZERO_K, SALINITY_FACTOR_PER_G_KG,
+    check_absolute_salinity, check_gibbs_pressure, lowering_q, lowering_q_dz, pure_water_g, pure_water_g_dz,
+    Reduced, CELSIUS_ZERO_K, SALINITY_FACTOR_PER_G_KG,
 };
 
 /// Mean molar mass of sea salt of Reference Composition, kg/mol (Millero et al. 2008; TEOS-10 M_S).
@@ -27,10 +27,10 @@ fn check_inputs(
 ) -> Result<(), ScienceError> {
     check_absolute_salinity(absolute_salinity_g_kg)?;
     check_temperature(temperature_c)?;
-    check_pressure(pressure_dbar)
+    check_gibbs_pressure(pressure_dbar)
 }
 
-/// Molality of sea salt, mol per kg of water: m = SA/(M_S (1 − SA)), SA in kg/kg (TEOS-10 `gsw_osmotic_coefficient_t_exact`).
+/// Molality of sea salt, mol/kg of water: m = SA/(M_S (1 − SA)), SA in kg/kg (TEOS-10 GSW osmotic functions).
 pub fn molality_mol_kg(absolute_salinity_g_kg: f64) -> Result<f64, ScienceError> {
     check_absolute_salinity(absolute_salinity_g_kg)?;
     Ok(absolute_salinity_g_kg / (MOLAR_MASS_SEA_SALT_KG_MOL * (1000.0 - absolute_salinity_g_kg)))
@@ -106,7 +106,8 @@ pub fn osmotic_pressure_bar(
     })
 }
 
-/// Solute (osmotic) potential ψs = −Π, bar (physiology convention; Nobel 2009, Physicochemical and Environmental Plant Physiology, ch. 2).
+/// Solute (osmotic) potential ψs = −Π, bar (physiology convention; Nobel 2009, Physicochemical and
+/// Environmental Plant Physiology, ch. 2).
 pub fn solute_potential_bar(
     absolute_salinity_g_kg: f64,
     temperature_c: f64,
@@ -233,8 +234,8 @@ mod tests {
 
     #[test]
     fn osmotic_pressure_satisfies_its_definition() {
-        // The defining equation (TEOS-10 `gsw_osmotic_pressure_t_exact`) checked with the public μW function; the
-        // residual tolerance is the rounding of μW (|μW| up to 1e5 J/kg at depth, times ~1e-15).
+        // The defining equation (TEOS-10 `gsw_osmotic_pressure_t_exact`) checked with the public μW function;
+        // the residual tolerance is the rounding of μW (|μW| up to 1e5 J/kg at depth, times a few 1e-16).
         for &(sa, t, p) in &[
             (35.0, 10.0, 0.0),
             (5.0, 30.0, 100.0),
@@ -245,7 +246,7 @@ mod tests {
             let mu_sea = chemical_potential_water_j_kg(sa, t, p + 10.0 * pi_bar).unwrap();
             let mu_pure = chemical_potential_water_j_kg(0.0, t, p).unwrap();
             assert!(
-                (mu_sea - mu_pure).abs() < 1e-9 * mu_pure.abs().max(1e3),
+                (mu_sea - mu_pure).abs() < 1e-13 * mu_pure.abs().max(1e3),
                 "{sa} {t} {p}"
             );
             // Newton slope: dμW/dp = g_p − SA g_SAp must stay positive (the iteration relies on it).
@@ -304,6 +305,28 @@ mod tests {
             osmolality_and_coefficient(35.0, 10.0, -5.0),
             Err(ScienceError::InvalidPressure { .. })
         ));
+        assert!(matches!(
+            osmotic_pressure_bar(35.0, 10.0, 2e4),
+            Err(ScienceError::InvalidPressure { .. })
+        ));
         assert!(molality_mol_kg(1000.0).is_err());
+    }
+
+    #[test]
+    fn edges_of_the_accepted_range_give_finite_results() {
+        // Corners of SA 0..120 g/kg, t −3..45 °C, p 0..10⁴ dbar: finite, ordered values, never NaN.
+        for &sa in &[1e-300, 5e-324, 0.001, 120.0] {
+            for &t in &[-3.0, 45.0] {
+                for &p in &[0.0, 10_000.0] {
+                    let (o, phi) = osmolality_and_coefficient(sa, t, p).unwrap();
+                    let pi = osmotic_pressure_bar(sa, t, p).unwrap();
+                    assert!(
+                        o.is_finite() && o >= 0.0 && phi.is_finite() && phi > 0.0,
+                        "{sa} {t} {p}"
+                    );
+                    assert!(pi.is_finite() && pi >= 0.0, "{sa} {t} {p}: {pi}");
+                }
+            }
+        }
     }
 }
