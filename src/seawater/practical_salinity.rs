@@ -317,10 +317,11 @@ fn hill_extended(sp_pss78: f64, rtx: f64, t68: f64, ft68: f64) -> f64 {
     2.0 * (sp_pss78 * d1 - n1) * d2 / ((2.0 * d2 - n2) * d1)
 }
 
-/// Size of rounding residue at SP = 0 treated as 0 rather than refused (halotank choice; ~1e4 ulp of 0.008).
+/// Rounding residue just below SP = 0 returned as 0 rather than refused (halotank choice): far above the
+/// ~1e-17 residue seen at the Hill formula's zero crossing, far below its -2.4e-4 dip.
 const ROUNDING_SP: f64 = 1e-12;
 
-/// Slow path of [`checked_result`].
+/// Slow path of [`sp_checked`] for usable inputs whose result is not a salinity.
 #[cold]
 #[inline(never)]
 fn unusable_result(sp: f64) -> Result<f64, ScienceError> {
