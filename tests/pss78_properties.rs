@@ -2,6 +2,7 @@
 use halotank::seawater::practical_salinity::{
     conductivity_from_practical_salinity, practical_salinity_from_conductivity,
 };
+use halotank::seawater::ScienceError;
 use proptest::prelude::*;
 use proptest::test_runner::FileFailurePersistence;
 
@@ -53,14 +54,27 @@ proptest! {
     }
 
     #[test]
-    fn bad_readings_give_errors_never_nan(
+    fn bad_readings_give_typed_errors_never_nan(
         c in prop_oneof![Just(f64::NAN), Just(f64::NEG_INFINITY), -1e6_f64..-1e-12, 0.0_f64..1e4],
         t in prop_oneof![Just(f64::NAN), -100.0_f64..100.0],
         p in prop_oneof![Just(f64::NAN), -1e4_f64..2e4],
     ) {
+        let c_ok = c.is_finite() && c >= 0.0;
+        let t_ok = (-3.0..=45.0).contains(&t);
+        let p_ok = (0.0..=10_000.0).contains(&p);
         match practical_salinity_from_conductivity(c, t, p) {
-            Ok(sp) => prop_assert!(sp.is_finite() && sp >= 0.0, "C {} t {} p {} -> {}", c, t, p, sp),
-            Err(_) => {}
+            Ok(sp) => {
+                prop_assert!(c_ok && t_ok && p_ok, "accepted C {} t {} p {}", c, t, p);
+                prop_assert!(sp.is_finite() && sp >= 0.0, "C {} t {} p {} -> {}", c, t, p, sp);
+            }
+            Err(ScienceError::InvalidConductivity { .. }) => prop_assert!(!c_ok),
+            Err(ScienceError::TemperatureOutOfRange { .. }) => prop_assert!(c_ok && !t_ok),
+            Err(ScienceError::InvalidPressure { .. } | ScienceError::InvalidParameter { name: "pressure_dbar", .. }) => {
+                prop_assert!(c_ok && t_ok && !p_ok)
+            }
+            // Only the Hill formula's dip below zero, at conductivities under ~0.001 mS/cm.
+            Err(ScienceError::InvalidSalinity { value }) => prop_assert!(value < 0.0 && c < 1e-3),
+            Err(other) => prop_assert!(false, "unexpected {:?}", other),
         }
     }
 }

@@ -37,6 +37,9 @@ pub fn salinity_range(practical_salinity: f64) -> SalinityRange {
 /// Conductivity of standard seawater C(35, 15 °C IPTS-68, 0), mS/cm (Culkin & Smith 1980; TEOS-10 value).
 pub const C3515_MS_CM: f64 = 42.914;
 
+/// 1/C(35,15,0) in cm/mS: R = C · (1/42.914), folded into the PSS-78 terms instead of a division.
+const PER_C3515_CM_MS: f64 = 1.0 / C3515_MS_CM;
+
 /// Highest sea pressure PSS-78 was fitted to, dbar (UNESCO 1981, Tech. Pap. Mar. Sci. 37).
 pub const MAX_PRESSURE_DBAR: f64 = 10_000.0;
 
@@ -80,20 +83,62 @@ fn rt_lc(t68: f64) -> f64 {
     C0 + t68 * (C1 + t68 * (C2 + t68 * (C3 + t68 * C4)))
 }
 
-/// PSS-78 salinity S = Σ aᵢ Rt^(i/2) + f(t) Σ bᵢ Rt^(i/2) as a function of √Rt (UNESCO 1983, p. 6).
-#[inline(always)]
+/// PSS-78 salinity S = Σ aᵢ Rt^(i/2) + f(t) Σ bᵢ Rt^(i/2) as a function of √Rt (UNESCO 1983, p. 6),
+/// in the printed Horner form: the test reference for [`Pss78AtTemperature`].
+#[cfg(test)]
 fn pss78_of_rtx(rtx: f64, ft68: f64) -> f64 {
     let a = A0 + rtx * (A1 + rtx * (A2 + rtx * (A3 + rtx * (A4 + rtx * A5))));
     let b = B0 + rtx * (B1 + rtx * (B2 + rtx * (B3 + rtx * (B4 + rtx * B5))));
     a + ft68 * b
 }
 
-/// d(PSS-78 S)/d√Rt, the derivative of [`pss78_of_rtx`].
-#[inline(always)]
+/// d(PSS-78 S)/d√Rt, the derivative of [`pss78_of_rtx`] (test reference).
+#[cfg(test)]
 fn dpss78_drtx(rtx: f64, ft68: f64) -> f64 {
     let a = A1 + rtx * (2.0 * A2 + rtx * (3.0 * A3 + rtx * (4.0 * A4 + rtx * 5.0 * A5)));
     let b = B1 + rtx * (2.0 * B2 + rtx * (3.0 * B3 + rtx * (4.0 * B4 + rtx * 5.0 * B5)));
     a + ft68 * b
+}
+
+/// PSS-78 at one temperature: S = Σ cᵢ Rt^(i/2) with cᵢ = aᵢ + f(t) bᵢ (UNESCO 1983, p. 6), evaluated in
+/// Estrin's form, which has a shorter dependency chain than Horner's; the cᵢ are ready before √Rt is.
+#[derive(Debug, Clone, Copy)]
+struct Pss78AtTemperature {
+    c: [f64; 6],
+}
+
+impl Pss78AtTemperature {
+    /// Combines the aᵢ and bᵢ for the temperature factor f(t).
+    #[inline(always)]
+    fn new(ft68: f64) -> Self {
+        Self {
+            c: [
+                A0 + ft68 * B0,
+                A1 + ft68 * B1,
+                A2 + ft68 * B2,
+                A3 + ft68 * B3,
+                A4 + ft68 * B4,
+                A5 + ft68 * B5,
+            ],
+        }
+    }
+
+    /// S(√Rt).
+    #[inline(always)]
+    fn salinity(&self, rtx: f64) -> f64 {
+        let c = &self.c;
+        let x2 = rtx * rtx;
+        let x4 = x2 * x2;
+        ((c[0] + c[1] * rtx) + x2 * (c[2] + c[3] * rtx)) + x4 * (c[4] + c[5] * rtx)
+    }
+
+    /// dS/d√Rt.
+    #[inline(always)]
+    fn slope(&self, rtx: f64) -> f64 {
+        let c = &self.c;
+        let x2 = rtx * rtx;
+        ((c[1] + 2.0 * c[2] * rtx) + x2 * (3.0 * c[3] + 4.0 * c[4] * rtx)) + (x2 * x2) * (5.0 * c[5])
+    }
 }
 
 /// Hill et al. (1986) correction a0/(1 + 1.5X + X²) + b0 f(t)/(1 + Y^½ + Y + Y^1.5), X = 400 Rt, Y = 100 Rt,
@@ -139,9 +184,10 @@ fn rtx_at_sp2_start(t68: f64) -> f64 {
 /// ~2e-9 and then below 1e-17, under rounding (verified over the range by a unit test).
 #[inline(always)]
 fn rtx_at_sp2(t68: f64, ft68: f64) -> f64 {
+    let poly = Pss78AtTemperature::new(ft68);
     let mut rtx = rtx_at_sp2_start(t68);
     for _ in 0..2 {
-        rtx -= (pss78_of_rtx(rtx, ft68) - 2.0) / dpss78_drtx(rtx, ft68);
+        rtx -= (poly.salinity(rtx) - 2.0) / poly.slope(rtx);
     }
     rtx
 }
@@ -168,14 +214,7 @@ pub fn practical_salinity_from_conductivity(
     temperature_c: f64,
     pressure_dbar: f64,
 ) -> Result<f64, ScienceError> {
-    if !inputs_usable(conductivity_ms_cm, temperature_c, pressure_dbar) {
-        return Err(input_error(conductivity_ms_cm, temperature_c, pressure_dbar));
-    }
-    checked_result(pss78_unchecked(
-        conductivity_ms_cm / C3515_MS_CM,
-        temperature_c,
-        pressure_dbar,
-    ))
+    sp_checked(conductivity_ms_cm, PER_C3515_CM_MS, temperature_c, pressure_dbar)
 }
 
 /// Practical Salinity from the conductivity ratio R = C(S,t,p)/C(35,15,0), temperature (°C ITS-90), p (dbar).
@@ -187,21 +226,36 @@ pub fn practical_salinity_from_conductivity_ratio(
     temperature_c: f64,
     pressure_dbar: f64,
 ) -> Result<f64, ScienceError> {
-    if !inputs_usable(conductivity_ratio, temperature_c, pressure_dbar) {
-        return Err(input_error(conductivity_ratio, temperature_c, pressure_dbar));
+    sp_checked(conductivity_ratio, 1.0, temperature_c, pressure_dbar)
+}
+
+/// Computes SP from R, then accepts it only if the inputs were usable and the result is a salinity.
+///
+/// The arithmetic has no side effects and runs on any input; the input and result checks share one
+/// branch, so the fast path costs a handful of comparisons. Refused input is reported by [`input_error`].
+#[inline(always)]
+fn sp_checked(
+    conductivity: f64,
+    to_ratio: f64,
+    temperature_c: f64,
+    pressure_dbar: f64,
+) -> Result<f64, ScienceError> {
+    let sp = pss78_unchecked(conductivity, to_ratio, temperature_c, pressure_dbar);
+    if inputs_usable(conductivity, temperature_c, pressure_dbar) & (0.0..f64::INFINITY).contains(&sp) {
+        Ok(sp)
+    } else if inputs_usable(conductivity, temperature_c, pressure_dbar) {
+        unusable_result(sp)
+    } else {
+        Err(input_error(conductivity, temperature_c, pressure_dbar))
     }
-    checked_result(pss78_unchecked(conductivity_ratio, temperature_c, pressure_dbar))
 }
 
 /// One branch for the whole input check on the fast path (NaN fails every comparison).
 #[inline(always)]
 fn inputs_usable(conductivity: f64, temperature_c: f64, pressure_dbar: f64) -> bool {
-    conductivity >= 0.0
-        && conductivity < f64::INFINITY
-        && temperature_c >= MIN_TEMPERATURE_C
-        && temperature_c <= MAX_TEMPERATURE_C
-        && pressure_dbar >= 0.0
-        && pressure_dbar <= MAX_PRESSURE_DBAR
+    (0.0..f64::INFINITY).contains(&conductivity)
+        & (MIN_TEMPERATURE_C..=MAX_TEMPERATURE_C).contains(&temperature_c)
+        & (0.0..=MAX_PRESSURE_DBAR).contains(&pressure_dbar)
 }
 
 /// The typed error for inputs [`inputs_usable`] refused.
@@ -232,23 +286,20 @@ fn check_temperature_and_pressure(temperature_c: f64, pressure_dbar: f64) -> Res
     Ok(())
 }
 
-/// PSS-78 with the Hill extension, for inputs already checked by [`inputs_usable`].
+/// PSS-78 with the Hill extension; meaningful only for inputs that pass [`inputs_usable`].
 #[inline(always)]
-fn pss78_unchecked(r: f64, temperature_c: f64, p: f64) -> f64 {
+fn pss78_unchecked(x: f64, x_to_r: f64, temperature_c: f64, p: f64) -> f64 {
+    // R = x · x_to_r (x is C in mS/cm with x_to_r = 1/42.914, or R itself with x_to_r = 1).
     let t68 = t68_from_t90(temperature_c);
+    // f(t) = (t − 15)/(1 + k(t − 15)), its own division: it runs beside the Rt chain below.
+    let ft68 = temperature_factor(t68);
     // Rp = 1 + p(e1 + e2 p + e3 p²)/(1 + d1 t + d2 t² + (d3 + d4 t) R)   (UNESCO 1983, p. 7)
-    // Rt = R/(Rp rt(t)),  f(t) = (t − 15)/(1 + k(t − 15)).
-    // Written with a single division: Rt = R·den/((den + num)·rt) and f = dt/q share 1/(q·(den + num)·rt).
-    let dt = t68 - 15.0;
-    let q = 1.0 + K * dt;
-    let den = 1.0 + t68 * (D1 + D2 * t68) + (D3 + D4 * t68) * r;
+    // Rt = R/(Rp rt(t)) = R·den/((den + num)·rt(t)), with one division on the dependent chain.
+    let den = 1.0 + t68 * (D1 + D2 * t68) + ((D3 + D4 * t68) * x_to_r) * x;
     let num = p * (E1 + p * (E2 + E3 * p));
-    let s = (den + num) * rt_lc(t68);
-    let inv = 1.0 / (q * s);
-    let ft68 = dt * s * inv;
-    let rt = r * den * q * inv;
+    let rt = ((x * x_to_r) * den) / ((den + num) * rt_lc(t68));
     let rtx = rt.sqrt();
-    let sp = pss78_of_rtx(rtx, ft68);
+    let sp = Pss78AtTemperature::new(ft68).salinity(rtx);
     if sp < 2.0 {
         hill_extended(sp, rtx, t68, ft68)
     } else {
@@ -266,20 +317,11 @@ fn hill_extended(sp_pss78: f64, rtx: f64, t68: f64, ft68: f64) -> f64 {
     2.0 * (sp_pss78 * d1 - n1) * d2 / ((2.0 * d2 - n2) * d1)
 }
 
-/// Accepts a computed SP, turning rounding residue just below 0 into 0 and refusing anything else unusable.
-#[inline(always)]
-fn checked_result(sp: f64) -> Result<f64, ScienceError> {
-    if sp >= 0.0 && sp < f64::INFINITY {
-        Ok(sp)
-    } else {
-        unusable_result(sp)
-    }
-}
-
-/// Size of rounding residue at SP = 0 treated as 0 rather than refused (halotank choice; ~1e4 ulp of 0.008).
+/// Rounding residue just below SP = 0 returned as 0 rather than refused (halotank choice): far above the
+/// ~1e-17 residue seen at the Hill formula's zero crossing, far below its -2.4e-4 dip.
 const ROUNDING_SP: f64 = 1e-12;
 
-/// Slow path of [`checked_result`].
+/// Slow path of [`sp_checked`] for usable inputs whose result is not a salinity.
 #[cold]
 #[inline(never)]
 fn unusable_result(sp: f64) -> Result<f64, ScienceError> {
@@ -338,7 +380,8 @@ fn solve_rtx_pss78(sp: f64, ft68: f64) -> Result<f64, ScienceError> {
     // Bracket: S(0) = a0 + b0 f < 2 ≤ sp; widen the upper end until S > sp.
     let mut hi = 1.5;
     let mut doublings = 0;
-    while pss78_of_rtx(hi, ft68) <= sp {
+    let poly = Pss78AtTemperature::new(ft68);
+    while poly.salinity(hi) <= sp {
         hi *= 2.0;
         doublings += 1;
         if doublings > 3 {
@@ -347,20 +390,19 @@ fn solve_rtx_pss78(sp: f64, ft68: f64) -> Result<f64, ScienceError> {
     }
     // SP ≈ 35 Rt near standard seawater: a starting √Rt within a few per cent.
     let guess = (sp / 35.0).sqrt();
-    safeguarded_newton(guess, 0.0, hi, |x| {
-        (pss78_of_rtx(x, ft68) - sp, dpss78_drtx(x, ft68))
-    })
+    safeguarded_newton(guess, 0.0, hi, |x| (poly.salinity(x) - sp, poly.slope(x)))
 }
 
 /// √Rt with Hill-extended S(√Rt) = sp, for 0 ≤ sp < 2 (on the rising branch of the Hill formula).
 fn solve_rtx_hill(sp: f64, t68: f64, ft68: f64) -> Result<f64, ScienceError> {
     let (hill_ratio, rtx_at_sp2) = hill_ratio_at_sp2(t68, ft68);
+    let poly = Pss78AtTemperature::new(ft68);
     // Start on the rising branch: S ≈ 2 Rt/Rt(2) well above SP ~ 0.1, and never below √Rt = 0.01,
     // above the Hill formula's zero crossing (√Rt ≈ 0.0056).
     let guess = (rtx_at_sp2 * (sp / 2.0).sqrt()).max(0.01);
     safeguarded_newton(guess, 0.0, rtx_at_sp2, |x| {
-        let value = hill_ratio * (pss78_of_rtx(x, ft68) - hill_correction(x, ft68)) - sp;
-        let slope = hill_ratio * (dpss78_drtx(x, ft68) - dhill_correction_drtx(x, ft68));
+        let value = hill_ratio * (poly.salinity(x) - hill_correction(x, ft68)) - sp;
+        let slope = hill_ratio * (poly.slope(x) - dhill_correction_drtx(x, ft68));
         (value, slope)
     })
 }
@@ -491,6 +533,28 @@ mod tests {
                 (rtx_at_sp2(t68, ft68) - exact).abs() <= 4.0 * f64::EPSILON * exact,
                 "t68 = {t68}"
             );
+        }
+    }
+
+    #[test]
+    fn estrin_form_matches_the_printed_horner_form() {
+        // Same polynomial, different evaluation order: agreement to a few ulp of S over the whole range.
+        for i in -3..=45 {
+            let ft68 = temperature_factor(t68_from_t90(f64::from(i)));
+            let poly = Pss78AtTemperature::new(ft68);
+            for j in 0..=150 {
+                let rtx = f64::from(j) / 100.0;
+                let (h, e) = (pss78_of_rtx(rtx, ft68), poly.salinity(rtx));
+                assert!(
+                    (h - e).abs() <= 1e-13 * h.abs().max(1.0),
+                    "t {i} rtx {rtx}: {h} vs {e}"
+                );
+                let (h, e) = (dpss78_drtx(rtx, ft68), poly.slope(rtx));
+                assert!(
+                    (h - e).abs() <= 1e-13 * h.abs().max(1.0),
+                    "t {i} rtx {rtx}: {h} vs {e}"
+                );
+            }
         }
     }
 
