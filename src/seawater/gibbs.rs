@@ -184,17 +184,49 @@ pub(crate) fn lowering_q(r: &Reduced) -> f64 {
     -0.5 * g1(r.y) + r.x * sum
 }
 
-/// (Q, ∂Q/∂z) for [`lowering_q`].
+/// Number of z coefficients of the pure-water part (powers z⁰..z⁶).
+pub(crate) const WATER_Z_TERMS: usize = 7;
+/// Number of z coefficients of the saline part (powers z⁰..z⁵).
+pub(crate) const SALINE_Z_TERMS: usize = 6;
+
+/// gW at fixed y as a polynomial in z: gW(y, z) = Σ_k W_k z^k (same IAPWS-09 coefficients, summed over y).
+///
+/// For solvers that vary only the pressure, such as the osmotic-pressure iteration.
 #[inline]
-pub(crate) fn lowering_q_dz(r: &Reduced) -> (f64, f64) {
-    let (mut sum, mut dsum) = (0.0, 0.0);
+pub(crate) fn pure_water_in_z(y: f64) -> [f64; WATER_Z_TERMS] {
+    let mut w = [0.0; WATER_Z_TERMS];
+    for row in WATER.iter().rev() {
+        w.iter_mut().for_each(|c| *c *= y);
+        w.iter_mut().zip(row.iter()).for_each(|(c, &a)| *c += a);
+    }
+    w
+}
+
+/// Q of [`lowering_q`] at fixed x, y as a polynomial in z: Q(x, y, z) = Σ_k Q_k z^k.
+#[inline]
+pub(crate) fn lowering_in_z(x: f64, y: f64) -> [f64; SALINE_Z_TERMS] {
+    let mut acc = [0.0; SALINE_Z_TERMS];
     for (n, rows) in SALINE[1..].iter().enumerate().rev() {
         let w = 1.0 - 0.5 * (n + 3) as f64;
-        let (s, ds) = poly_yz_dz(rows, r.y, r.z);
-        sum = sum * r.x + w * s;
-        dsum = dsum * r.x + w * ds;
+        // S_i,k(y) = Σ_j g_ijk y^j, by Horner in y across the rows of x^i.
+        let mut s = [0.0; SALINE_Z_TERMS];
+        for row in rows.iter().rev() {
+            s.iter_mut().for_each(|c| *c *= y);
+            s.iter_mut().zip(row.iter()).for_each(|(c, &a)| *c += a);
+        }
+        acc.iter_mut()
+            .zip(s.iter())
+            .for_each(|(a, &si)| *a = *a * x + w * si);
     }
-    (-0.5 * g1(r.y) + r.x * sum, r.x * dsum)
+    acc.iter_mut().for_each(|a| *a *= x);
+    acc[0] -= 0.5 * g1(y);
+    acc
+}
+
+/// (Σ_k c_k z^k, its z-derivative) of a polynomial from [`pure_water_in_z`] or [`lowering_in_z`].
+#[inline]
+pub(crate) fn z_poly_dz(c: &[f64], z: f64) -> (f64, f64) {
+    horner_dz(c, z)
 }
 
 /// Checks an Absolute Salinity (g/kg): finite, not negative, at most [`MAX_ABSOLUTE_SALINITY_G_KG`].
@@ -409,6 +441,26 @@ mod tests {
                     let mu0 = chemical_potential_water_j_kg(0.0, t, p).unwrap();
                     let low = chemical_potential_water_lowering_j_kg(sa, t, p).unwrap();
                     assert!((low - (mu - mu0)).abs() <= 1e-12 * mu0.abs().max(1e3));
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn z_collapsed_polynomials_equal_the_tables() {
+        // The solver's per-pressure polynomials are the same coefficients summed in another order;
+        // agreement to 1e-13 of max(|gW|, 1e3) / max(|Q|, 1e3) is floating-point rounding only.
+        for &sa in &[0.01, 10.0, 35.0, 120.0] {
+            for &t in &[-3.0, 12.0, 45.0] {
+                for &p in &[0.0, 300.0, 10_000.0] {
+                    let r = Reduced::new(sa, t, p);
+                    let (g, dg) = z_poly_dz(&pure_water_in_z(r.y), r.z);
+                    let (g_ref, dg_ref) = pure_water_g_dz(r.y, r.z);
+                    assert!((g - g_ref).abs() <= 1e-13 * g_ref.abs().max(1e3));
+                    assert!((dg - dg_ref).abs() <= 1e-13 * dg_ref.abs().max(1e3));
+                    let (q, _) = z_poly_dz(&lowering_in_z(r.x, r.y), r.z);
+                    let q_ref = lowering_q(&r);
+                    assert!((q - q_ref).abs() <= 1e-13 * q_ref.abs().max(1e3), "{sa} {t} {p}");
                 }
             }
         }

@@ -6,7 +6,7 @@
 //! `gsw_osmotic_pressure_t_exact`.
 use super::error::{check_temperature, ScienceError};
 use super::gibbs::{
-    check_absolute_salinity, check_gibbs_pressure, lowering_q, lowering_q_dz, pure_water_g, pure_water_g_dz,
+    check_absolute_salinity, check_gibbs_pressure, lowering_in_z, lowering_q, pure_water_in_z, z_poly_dz,
     Reduced, CELSIUS_ZERO_K, SALINITY_FACTOR_PER_G_KG,
 };
 
@@ -74,15 +74,17 @@ pub fn osmotic_pressure_bar(
     if absolute_salinity_g_kg == 0.0 {
         return Ok(0.0);
     }
-    let mut r = Reduced::new(absolute_salinity_g_kg, temperature_c, pressure_dbar);
-    let z0 = r.z;
-    let g_pure = pure_water_g(r.y, z0);
+    let r = Reduced::new(absolute_salinity_g_kg, temperature_c, pressure_dbar);
+    // Only the pressure varies: collapse x and y once, then each step evaluates two short z-polynomials.
+    let water = pure_water_in_z(r.y);
+    let lowering = lowering_in_z(r.x, r.y);
+    let g_pure = z_poly_dz(&water, r.z).0;
     // Unknown: dz = Π / 10⁴ dbar. f(dz) = gW(z0 + dz) − gW(z0) + x² Q(z0 + dz), in J/kg.
     let mut dz = 0.0_f64;
     for _ in 0..MAX_NEWTON_STEPS {
-        r.z = z0 + dz;
-        let (g_w, g_w_dz) = pure_water_g_dz(r.y, r.z);
-        let (q, q_dz) = lowering_q_dz(&r);
+        let z = r.z + dz;
+        let (g_w, g_w_dz) = z_poly_dz(&water, z);
+        let (q, q_dz) = z_poly_dz(&lowering, z);
         let f = (g_w - g_pure) + r.x2 * q;
         let slope = g_w_dz + r.x2 * q_dz;
         if !(f.is_finite() && slope.is_finite() && slope > 0.0) {
