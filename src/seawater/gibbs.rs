@@ -1,7 +1,7 @@
 //! The TEOS-10 Gibbs function of seawater g(SA, t, p) and the partial derivatives halotank needs.
 //!
 //! g = gW(t, p) + gS(SA, t, p) in J/kg, with
-//! - gW: the pure-water polynomial of Feistel (2003), endorsed as IAPWS-09 (Supplementary Release on a
+//! - gW: the pure-water polynomial of Feistel (2003, Prog. Oceanogr. 58, 43–114), endorsed as IAPWS-09 (Supplementary Release on a
 //!   Computationally Efficient Thermodynamic Formulation for Liquid Water for Oceanographic Use, 2009);
 //! - gS: the saline part of IAPWS-08 (Release on the IAPWS Formulation 2008 for the Thermodynamic
 //!   Properties of Seawater; Feistel 2008, Deep-Sea Res. I 55, 1639–1671);
@@ -10,9 +10,12 @@
 //! `gsw_gibbs`. Reduced variables: x² = SA/Su (Su = 40.188617 g/kg), y = t/40 °C, z = p/10⁴ dbar.
 //! Section and equation numbers of the TEOS-10 Manual quoted below are from memory.
 //!
-//! The coefficients are tabulated once (IAPWS-08 Table 2, IAPWS-09 Table 2 / Feistel 2003 Table 4; taken
-//! from the published TEOS-10 GSW `gsw_gibbs` expansion) and evaluated by nested Horner schemes, each
-//! function computing only the derivative it returns. No allocation.
+//! The coefficients (IAPWS-08 Table 2 and the IAPWS-09 coefficient table, table numbers from memory) were
+//! taken from the published TEOS-10 GSW `gsw_gibbs` expansion, tabulated once here and evaluated by nested
+//! Horner schemes, each function computing only the derivative it returns. No allocation.
+//!
+//! Range: the crate accepts −3..45 °C, 0..10⁴ dbar, 0..120 g/kg. The formulation is fitted to about
+//! 0..40 °C and 0..42 g/kg (IAPWS-08, from memory); beyond that it extrapolates smoothly with lower accuracy.
 use super::error::{check_pressure, check_temperature, ScienceError};
 
 /// 1/Su, (g/kg)⁻¹: Su = 40 · 35.16504/35 g/kg (IAPWS-08 reducing salinity; GSW `gsw_sfac`).
@@ -285,7 +288,7 @@ pub fn gibbs_j_kg(
     Ok(pure_water_g(r.y, r.z) + log_term + r.x2 * sum)
 }
 
-/// ∂g/∂SA at constant t, p, in J/kg per g/kg (IAPWS-08 Table 3 g_S).
+/// ∂g/∂SA at constant t, p, in J/kg per g/kg (IAPWS-08 Table 3 g_S, from memory).
 ///
 /// It diverges (to −∞) at SA = 0, where this returns [`ScienceError::InvalidSalinity`].
 pub fn gibbs_sa_j_kg_per_g_kg(
@@ -307,7 +310,7 @@ pub fn gibbs_sa_j_kg_per_g_kg(
     Ok(SALINITY_FACTOR_PER_G_KG * (g1(r.y) * (r.x.ln() + 0.5) + sum))
 }
 
-/// ∂g/∂P at constant SA, t, with P in Pa: the specific volume, m³/kg (IAPWS-08 Table 3 g_p).
+/// ∂g/∂P at constant SA, t, with P in Pa: the specific volume, m³/kg (IAPWS-08 Table 3 g_p, from memory).
 pub fn gibbs_p_m3_kg(
     absolute_salinity_g_kg: f64,
     temperature_c: f64,
@@ -322,7 +325,7 @@ pub fn gibbs_p_m3_kg(
     Ok(Z_PER_PA * (water_dz + r.x2 * dsum))
 }
 
-/// ∂²g/∂SA∂P, (m³/kg) per g/kg, P in Pa (IAPWS-08 Table 3 g_Sp); finite at SA = 0.
+/// ∂²g/∂SA∂P, (m³/kg) per g/kg, P in Pa (IAPWS-08 Table 3 g_Sp, from memory); finite at SA = 0.
 pub fn gibbs_sa_p_m3_kg_per_g_kg(
     absolute_salinity_g_kg: f64,
     temperature_c: f64,
@@ -417,7 +420,7 @@ mod tests {
     #[test]
     fn density_of_standard_seawater_from_gibbs() {
         // ρ = 1/g_p: 1028.10718 kg/m³ at SSO, 0 °C, 0 dbar (gsw 3.6.23 gsw.rho_t_exact = 1028.1071845749);
-        // IAPWS-08 Table 8a quotes 0.102810720e4 with IAPWS-95 water, 2e-8 relative away.
+        // IAPWS-08 Table 8a quotes 0.102810720e4 with IAPWS-95 water (from memory), 2e-8 relative away.
         let rho = 1.0 / gibbs_p_m3_kg(SSO, 0.0, 0.0).unwrap();
         assert!(close(rho, 1_028.107_184_574_85, 1e-12), "ρ {rho}");
         assert!(close(rho, 0.102_810_720e4, 5e-8));
