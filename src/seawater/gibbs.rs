@@ -1,7 +1,7 @@
 //! The TEOS-10 Gibbs function of seawater g(SA, t, p) and the partial derivatives halotank needs.
 //!
 //! g = gW(t, p) + gS(SA, t, p) in J/kg, with
-//! - gW: the pure-water polynomial of Feistel (2003), endorsed as IAPWS-09 (Supplementary Release on a
+//! - gW: the pure-water polynomial of Feistel (2003, Prog. Oceanogr. 58, 43–114), endorsed as IAPWS-09 (Supplementary Release on a
 //!   Computationally Efficient Thermodynamic Formulation for Liquid Water for Oceanographic Use, 2009);
 //! - gS: the saline part of IAPWS-08 (Release on the IAPWS Formulation 2008 for the Thermodynamic
 //!   Properties of Seawater; Feistel 2008, Deep-Sea Res. I 55, 1639–1671);
@@ -10,9 +10,12 @@
 //! `gsw_gibbs`. Reduced variables: x² = SA/Su (Su = 40.188617 g/kg), y = t/40 °C, z = p/10⁴ dbar.
 //! Section and equation numbers of the TEOS-10 Manual quoted below are from memory.
 //!
-//! The coefficients are tabulated once (IAPWS-08 Table 2, IAPWS-09 Table 2 / Feistel 2003 Table 4; taken
-//! from the published TEOS-10 GSW `gsw_gibbs` expansion) and evaluated by nested Horner schemes, each
-//! function computing only the derivative it returns. No allocation.
+//! The coefficients (IAPWS-08 Table 2 and the IAPWS-09 coefficient table, table numbers from memory) were
+//! taken from the published TEOS-10 GSW `gsw_gibbs` expansion, tabulated once here and evaluated by nested
+//! Horner schemes, each function computing only the derivative it returns. No allocation.
+//!
+//! Range: the crate accepts −3..45 °C, 0..10⁴ dbar, 0..120 g/kg. The formulation is fitted to about
+//! 0..40 °C and 0..42 g/kg (IAPWS-08, from memory); beyond that it extrapolates smoothly with lower accuracy.
 use super::error::{check_pressure, check_temperature, ScienceError};
 
 /// 1/Su, (g/kg)⁻¹: Su = 40 · 35.16504/35 g/kg (IAPWS-08 reducing salinity; GSW `gsw_sfac`).
@@ -184,17 +187,49 @@ pub(crate) fn lowering_q(r: &Reduced) -> f64 {
     -0.5 * g1(r.y) + r.x * sum
 }
 
-/// (Q, ∂Q/∂z) for [`lowering_q`].
+/// Number of z coefficients of the pure-water part (powers z⁰..z⁶).
+pub(crate) const WATER_Z_TERMS: usize = 7;
+/// Number of z coefficients of the saline part (powers z⁰..z⁵).
+pub(crate) const SALINE_Z_TERMS: usize = 6;
+
+/// gW at fixed y as a polynomial in z: gW(y, z) = Σ_k W_k z^k (same IAPWS-09 coefficients, summed over y).
+///
+/// For solvers that vary only the pressure, such as the osmotic-pressure iteration.
 #[inline]
-pub(crate) fn lowering_q_dz(r: &Reduced) -> (f64, f64) {
-    let (mut sum, mut dsum) = (0.0, 0.0);
+pub(crate) fn pure_water_in_z(y: f64) -> [f64; WATER_Z_TERMS] {
+    let mut w = [0.0; WATER_Z_TERMS];
+    for row in WATER.iter().rev() {
+        w.iter_mut().for_each(|c| *c *= y);
+        w.iter_mut().zip(row.iter()).for_each(|(c, &a)| *c += a);
+    }
+    w
+}
+
+/// Q of [`lowering_q`] at fixed x, y as a polynomial in z: Q(x, y, z) = Σ_k Q_k z^k.
+#[inline]
+pub(crate) fn lowering_in_z(x: f64, y: f64) -> [f64; SALINE_Z_TERMS] {
+    let mut acc = [0.0; SALINE_Z_TERMS];
     for (n, rows) in SALINE[1..].iter().enumerate().rev() {
         let w = 1.0 - 0.5 * (n + 3) as f64;
-        let (s, ds) = poly_yz_dz(rows, r.y, r.z);
-        sum = sum * r.x + w * s;
-        dsum = dsum * r.x + w * ds;
+        // S_i,k(y) = Σ_j g_ijk y^j, by Horner in y across the rows of x^i.
+        let mut s = [0.0; SALINE_Z_TERMS];
+        for row in rows.iter().rev() {
+            s.iter_mut().for_each(|c| *c *= y);
+            s.iter_mut().zip(row.iter()).for_each(|(c, &a)| *c += a);
+        }
+        acc.iter_mut()
+            .zip(s.iter())
+            .for_each(|(a, &si)| *a = *a * x + w * si);
     }
-    (-0.5 * g1(r.y) + r.x * sum, r.x * dsum)
+    acc.iter_mut().for_each(|a| *a *= x);
+    acc[0] -= 0.5 * g1(y);
+    acc
+}
+
+/// (Σ_k c_k z^k, its z-derivative) of a polynomial from [`pure_water_in_z`] or [`lowering_in_z`].
+#[inline]
+pub(crate) fn z_poly_dz(c: &[f64], z: f64) -> (f64, f64) {
+    horner_dz(c, z)
 }
 
 /// Checks an Absolute Salinity (g/kg): finite, not negative, at most [`MAX_ABSOLUTE_SALINITY_G_KG`].
@@ -253,7 +288,7 @@ pub fn gibbs_j_kg(
     Ok(pure_water_g(r.y, r.z) + log_term + r.x2 * sum)
 }
 
-/// ∂g/∂SA at constant t, p, in J/kg per g/kg (IAPWS-08 Table 3 g_S).
+/// ∂g/∂SA at constant t, p, in J/kg per g/kg (IAPWS-08 Table 3 g_S, from memory).
 ///
 /// It diverges (to −∞) at SA = 0, where this returns [`ScienceError::InvalidSalinity`].
 pub fn gibbs_sa_j_kg_per_g_kg(
@@ -275,7 +310,7 @@ pub fn gibbs_sa_j_kg_per_g_kg(
     Ok(SALINITY_FACTOR_PER_G_KG * (g1(r.y) * (r.x.ln() + 0.5) + sum))
 }
 
-/// ∂g/∂P at constant SA, t, with P in Pa: the specific volume, m³/kg (IAPWS-08 Table 3 g_p).
+/// ∂g/∂P at constant SA, t, with P in Pa: the specific volume, m³/kg (IAPWS-08 Table 3 g_p, from memory).
 pub fn gibbs_p_m3_kg(
     absolute_salinity_g_kg: f64,
     temperature_c: f64,
@@ -290,7 +325,7 @@ pub fn gibbs_p_m3_kg(
     Ok(Z_PER_PA * (water_dz + r.x2 * dsum))
 }
 
-/// ∂²g/∂SA∂P, (m³/kg) per g/kg, P in Pa (IAPWS-08 Table 3 g_Sp); finite at SA = 0.
+/// ∂²g/∂SA∂P, (m³/kg) per g/kg, P in Pa (IAPWS-08 Table 3 g_Sp, from memory); finite at SA = 0.
 pub fn gibbs_sa_p_m3_kg_per_g_kg(
     absolute_salinity_g_kg: f64,
     temperature_c: f64,
@@ -385,7 +420,7 @@ mod tests {
     #[test]
     fn density_of_standard_seawater_from_gibbs() {
         // ρ = 1/g_p: 1028.10718 kg/m³ at SSO, 0 °C, 0 dbar (gsw 3.6.23 gsw.rho_t_exact = 1028.1071845749);
-        // IAPWS-08 Table 8a quotes 0.102810720e4 with IAPWS-95 water, 2e-8 relative away.
+        // IAPWS-08 Table 8a quotes 0.102810720e4 with IAPWS-95 water (from memory), 2e-8 relative away.
         let rho = 1.0 / gibbs_p_m3_kg(SSO, 0.0, 0.0).unwrap();
         assert!(close(rho, 1_028.107_184_574_85, 1e-12), "ρ {rho}");
         assert!(close(rho, 0.102_810_720e4, 5e-8));
@@ -409,6 +444,26 @@ mod tests {
                     let mu0 = chemical_potential_water_j_kg(0.0, t, p).unwrap();
                     let low = chemical_potential_water_lowering_j_kg(sa, t, p).unwrap();
                     assert!((low - (mu - mu0)).abs() <= 1e-12 * mu0.abs().max(1e3));
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn z_collapsed_polynomials_equal_the_tables() {
+        // The solver's per-pressure polynomials are the same coefficients summed in another order;
+        // agreement to 1e-13 of max(|gW|, 1e3) / max(|Q|, 1e3) is floating-point rounding only.
+        for &sa in &[0.01, 10.0, 35.0, 120.0] {
+            for &t in &[-3.0, 12.0, 45.0] {
+                for &p in &[0.0, 300.0, 10_000.0] {
+                    let r = Reduced::new(sa, t, p);
+                    let (g, dg) = z_poly_dz(&pure_water_in_z(r.y), r.z);
+                    let (g_ref, dg_ref) = pure_water_g_dz(r.y, r.z);
+                    assert!((g - g_ref).abs() <= 1e-13 * g_ref.abs().max(1e3));
+                    assert!((dg - dg_ref).abs() <= 1e-13 * dg_ref.abs().max(1e3));
+                    let (q, _) = z_poly_dz(&lowering_in_z(r.x, r.y), r.z);
+                    let q_ref = lowering_q(&r);
+                    assert!((q - q_ref).abs() <= 1e-13 * q_ref.abs().max(1e3), "{sa} {t} {p}");
                 }
             }
         }
