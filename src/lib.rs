@@ -14,6 +14,7 @@
 //! - [`cli`]: the command-line front end.
 pub mod cli;
 pub mod config;
+pub mod daemon;
 pub mod ingest;
 pub mod mqtt;
 pub mod seawater;
