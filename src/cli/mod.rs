@@ -6,6 +6,7 @@ use clap::{Parser, Subcommand};
 pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
+pub mod demo;
 
 /// Salinity, osmolality and tonicity for hatchery and holding tanks.
 #[derive(Debug, Parser)]
@@ -22,6 +23,8 @@ pub enum Command {
     Convert(convert::ConvertArgs),
     /// Check a configuration file and summarise its tanks and topics.
     CheckConfig(check_config::CheckConfigArgs),
+    /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
+    Demo(demo::DemoArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -30,6 +33,7 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Convert(args) => convert::run(args),
         Command::CheckConfig(args) => check_config::run(args),
+        Command::Demo(args) => demo::run(args),
     };
     match result {
         Ok(code) => code,

@@ -75,7 +75,7 @@ impl GarbageKind {
                 while !text.is_char_boundary(cut) {
                     cut -= 1;
                 }
-                text[..cut].as_bytes().to_vec()
+                text.as_bytes()[..cut].to_vec()
             }
             Self::NanValue => with_conductivity(good, conductivity_key, Value::String("NaN".into())),
             Self::WrongType => {

@@ -92,7 +92,8 @@ fn fit(text: &str, width: usize) -> String {
     }
 }
 
-const NAME_WIDTH: usize = 34;
+/// Widest name column; longer names are cut.
+const MAX_NAME_WIDTH: usize = 40;
 
 /// The whole table: heading, one line per tank, the counts line and the caution line.
 pub fn render_table(heading: &TableHeading, rows: &[TankRow], counts: &TableCounts) -> String {
@@ -102,6 +103,12 @@ pub fn render_table(heading: &TableHeading, rows: &[TankRow], counts: &TableCoun
         .max()
         .unwrap_or(4)
         .max(4);
+    let name_width = rows
+        .iter()
+        .map(|r| r.name.chars().count())
+        .max()
+        .unwrap_or(4)
+        .clamp(4, MAX_NAME_WIDTH);
     let mut out = format!(
         "{}  simulated time {}  ({}x)\n",
         heading.site,
@@ -109,14 +116,14 @@ pub fn render_table(heading: &TableHeading, rows: &[TankRow], counts: &TableCoun
         heading.speed
     );
     out.push_str(&format!(
-        "{:<id_width$}  {:<NAME_WIDTH$}  {:>7}  {:>6}  {:>7}  {:>7}  {:>6}  {}\n",
+        "{:<id_width$}  {:<name_width$}  {:>7}  {:>6}  {:>7}  {:>7}  {:>6}  {}\n",
         "TANK", "NAME", "SP", "TEMP C", "mS/cm", "mOsm/kg", "AGE", "STATE"
     ));
     for row in rows {
         out.push_str(&format!(
-            "{:<id_width$}  {:<NAME_WIDTH$}  {:>7}  {:>6}  {:>7}  {:>7}  {:>6}  {}\n",
+            "{:<id_width$}  {:<name_width$}  {:>7}  {:>6}  {:>7}  {:>7}  {:>6}  {}\n",
             fit(&row.id, id_width),
-            fit(&row.name, NAME_WIDTH),
+            fit(&row.name, name_width),
             cell(row.practical_salinity, 2),
             cell(row.temperature_c, 2),
             cell(row.conductivity_ms_cm, 3),
@@ -234,7 +241,7 @@ mod tests {
         );
         assert!(lines[3].ends_with("  3m01s  STALE"), "{}", lines[3]);
         assert!(
-            lines[4].contains("A very long tank name that does n~"),
+            lines[4].contains("A very long tank name that does not fit~"),
             "{}",
             lines[4]
         );
