@@ -13,8 +13,9 @@ use tokio::time::{Instant, MissedTickBehavior};
 use crate::config::Config;
 use crate::daemon;
 use crate::demo::config::{demo_config_for, DEFAULT_DB};
-use crate::demo::table::{render_table, TableCounts, TableHeading, TankRow};
-use crate::demo::{run_probes, ProbeSettings, ProbeStats, Scenario, SimClock};
+use crate::demo::scenario::DEFAULT_SEED;
+use crate::demo::table::{render_table, TableCounts, TableHeading};
+use crate::demo::{run_probes, tank_rows, LatestReading, ProbeSettings, ProbeStats, Scenario, SimClock};
 use crate::mqtt::EmbeddedBroker;
 
 /// Client id of the simulated probes (the daemon uses the configuration's).
@@ -52,7 +53,7 @@ pub struct DemoArgs {
     #[arg(long, value_name = "FACTOR", default_value_t = 60.0)]
     pub speed: f64,
     /// Seed of the simulated noise and faults (the same seed gives the same readings).
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, default_value_t = DEFAULT_SEED)]
     pub seed: u64,
 }
 
@@ -127,6 +128,7 @@ async fn run_demo(args: DemoArgs) -> anyhow::Result<ExitCode> {
     let config = demo_config_for(broker.addr(), &args.db)?;
     let scenario = Scenario::brannock(args.seed, clock.sim_start(), clock.real_start());
     let db = config.storage.path.clone();
+    let db_existed = db.exists();
 
     println!(
         "halotank demo: {} (fictional), simulated probes, {}x speed",
@@ -148,6 +150,9 @@ async fn run_demo(args: DemoArgs) -> anyhow::Result<ExitCode> {
             ", then the real clock (Ctrl-C to stop)"
         }
     );
+    if db_existed {
+        println!("  the database exists already: this run adds its readings to it");
+    }
     println!("  {}", table_source_note());
     println!();
 
@@ -275,24 +280,12 @@ fn table_source_note() -> &'static str {
 
 /// Rows and counts for the live table.
 ///
-/// The rows name the configured tanks; readings (practical salinity, temperature, osmolality, age) and
-/// the stored/rejected counts are to come from the database through the storage reader, which this
-/// build does not have yet, so they show as `-`/`n/a`. The probe counts are live.
+/// The newest readings and the stored/rejected counts are to come from the database through the
+/// storage reader, which this build does not have yet: until it is connected the rows show `waiting`
+/// and the counts `n/a`. The probe counts are live.
 fn live_table(config: &Config, clock: &SimClock, stats: &ProbeStats) -> String {
-    let rows: Vec<TankRow> = config
-        .tanks
-        .iter()
-        .map(|t| TankRow {
-            id: t.id.clone(),
-            name: t.name.clone(),
-            practical_salinity: None,
-            temperature_c: None,
-            conductivity_ms_cm: None,
-            osmolality_mosm_kg: None,
-            age: None,
-            expected_interval_s: t.expected_interval_s,
-        })
-        .collect();
+    let simulated_now = stats.simulated_time.unwrap_or_else(|| clock.sim_start());
+    let latest: Vec<LatestReading> = Vec::new();
     let counts = TableCounts {
         stored: None,
         rejected: None,
@@ -301,10 +294,14 @@ fn live_table(config: &Config, clock: &SimClock, stats: &ProbeStats) -> String {
     };
     let heading = TableHeading {
         site: config.site.name.clone(),
-        simulated_time: stats.simulated_time.unwrap_or_else(|| clock.sim_start()),
+        simulated_time: simulated_now,
         speed: clock.speed(),
     };
-    render_table(&heading, &rows, &counts)
+    render_table(
+        &heading,
+        &tank_rows(config, &latest, simulated_now, Utc::now()),
+        &counts,
+    )
 }
 
 /// A path as one shell word (single-quoted when it holds anything but `[A-Za-z0-9_./-]`).

@@ -16,7 +16,8 @@
 //!   and Unix-seconds time;
 //! - `oyster-d1`: oyster depuration tank whose conductivity probe drifts up 3 % per simulated day while
 //!   the water stays steady, JSON on separate conductivity and temperature topics;
-//! - `quarantine-q1`: quarantine tank whose probe sends a broken payload in about 4 % of its messages.
+//! - `quarantine-q1`: quarantine tank whose probe reports every 15 s and sends a broken payload in about
+//!   4 % of its messages.
 //!
 //! All of this is invented demo data; nothing here describes a real site, animal or limit.
 use chrono::{DateTime, TimeDelta, Timelike, Utc};
@@ -27,6 +28,9 @@ use super::noise::{Noise, Stream};
 use super::payload::{self, TimeStyle};
 use crate::seawater::practical_salinity::conductivity_from_practical_salinity;
 use crate::seawater::{ConductivityUnit, ProbeMode};
+
+/// Seed of `halotank demo` unless `--seed` is given.
+pub const DEFAULT_SEED: u64 = 1;
 
 /// Relative noise of a probe's conductivity (1 standard deviation).
 pub const CONDUCTIVITY_NOISE_FRACTION: f64 = 0.001;
@@ -118,7 +122,7 @@ pub struct DemoTank {
     pub format: ProbeFormat,
     /// Seconds between readings.
     pub interval_s: i64,
-    /// Offset of the first reading after the timeline start, seconds.
+    /// Offset of the first reading after the timeline start, seconds (less than `interval_s`).
     pub phase_s: i64,
     /// How fast the probe's conductivity reading creeps up, % per simulated day since the timeline start.
     pub drift_percent_per_day: f64,
@@ -273,8 +277,8 @@ impl Scenario {
                     keys: DEFAULT_KEYS,
                     time: TimeStyle::Rfc3339,
                 },
-                interval_s: 60,
-                phase_s: 37,
+                interval_s: 15,
+                phase_s: 11,
                 drift_percent_per_day: 0.0,
                 garbage_fraction: 0.04,
             },
