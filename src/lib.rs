@@ -12,10 +12,12 @@
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
+//! - [`demo`]: `halotank demo` (simulated probes; the scenario itself is pure).
 //! - [`cli`]: the command-line front end.
 pub mod cli;
 pub mod config;
 pub mod daemon;
+pub mod demo;
 pub mod ingest;
 pub mod mqtt;
 pub mod seawater;

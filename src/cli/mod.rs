@@ -6,6 +6,7 @@ use clap::{Parser, Subcommand};
 pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
+pub mod demo;
 pub mod history;
 pub mod logging;
 pub mod run;
@@ -33,6 +34,8 @@ pub enum Command {
     History(history::HistoryArgs),
     /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
     Status(status::StatusArgs),
+    /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
+    Demo(demo::DemoArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -44,6 +47,7 @@ pub fn main() -> ExitCode {
         Command::Run(args) => run::run(args),
         Command::History(args) => history::run(args),
         Command::Status(args) => status::run(args),
+        Command::Demo(args) => demo::run(args),
     };
     match result {
         Ok(code) => code,
