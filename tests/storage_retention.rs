@@ -30,16 +30,16 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
     let db = temp_db();
     let (writer, _reports, join) = spawn_writer::<u32>(&db.path, settings()).unwrap();
     let tank = "smolt-b2";
-    // Hour 2031-05-01 10:00 UTC: practical salinity, temperature °C, osmolality mOsm/kg, conductivity mS/cm.
+    // Hour 2024-05-01 10:00 UTC: practical salinity, temperature °C, osmolality mOsm/kg, conductivity mS/cm.
     let hour_10 = [
-        reading_full(tank, at(2031, 5, 1, 10, 5, 0), 30.0, 10.0, 900.0, 40.0),
-        reading_full(tank, at(2031, 5, 1, 10, 20, 0), 31.5, 11.0, 930.0, 41.0),
-        reading_full(tank, at(2031, 5, 1, 10, 50, 0), 29.4, 12.0, 870.0, 39.0),
+        reading_full(tank, at(2024, 5, 1, 10, 5, 0), 30.0, 10.0, 900.0, 40.0),
+        reading_full(tank, at(2024, 5, 1, 10, 20, 0), 31.5, 11.0, 930.0, 41.0),
+        reading_full(tank, at(2024, 5, 1, 10, 50, 0), 29.4, 12.0, 870.0, 39.0),
     ];
-    let hour_11 = reading_full(tank, at(2031, 5, 1, 11, 0, 0), 28.0, 9.5, 850.0, 37.0);
-    let other_tank = reading_full("oyster-d1", at(2031, 5, 1, 10, 30, 0), 33.0, 14.0, 990.0, 47.0);
-    let just_before_cutoff = reading_full(tank, at(2031, 5, 2, 9, 59, 59), 30.0, 10.0, 900.0, 40.0);
-    let just_after_cutoff = reading_full(tank, at(2031, 5, 2, 10, 15, 0), 30.0, 10.0, 900.0, 40.0);
+    let hour_11 = reading_full(tank, at(2024, 5, 1, 11, 0, 0), 28.0, 9.5, 850.0, 37.0);
+    let other_tank = reading_full("oyster-d1", at(2024, 5, 1, 10, 30, 0), 33.0, 14.0, 990.0, 47.0);
+    let just_before_cutoff = reading_full(tank, at(2024, 5, 2, 9, 59, 59), 30.0, 10.0, 900.0, 40.0);
+    let just_after_cutoff = reading_full(tank, at(2024, 5, 2, 10, 15, 0), 30.0, 10.0, 900.0, 40.0);
     let rows =
         hour_10
             .iter()
@@ -49,10 +49,10 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
         writer.blocking_send(WriteItem::Reading(row, i as u32)).unwrap();
     }
 
-    // now 2031-05-09 10:30, 7 days back is 2031-05-02 10:30, rounded down to the hour: cutoff 10:00.
-    let now = at(2031, 5, 9, 10, 30, 0);
+    // now 2024-05-09 10:30, 7 days back is 2024-05-02 10:30, rounded down to the hour: cutoff 10:00.
+    let now = at(2024, 5, 9, 10, 30, 0);
     let report = writer.blocking_run_retention(now, WEEK).unwrap();
-    assert_eq!(report.readings_cutoff, at(2031, 5, 2, 10, 0, 0));
+    assert_eq!(report.readings_cutoff, at(2024, 5, 2, 10, 0, 0));
     assert_eq!(report.readings_folded, 6);
     assert_eq!(
         report.hourly_rows_written, 4,
@@ -64,7 +64,7 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
     let hourly = reader.hourly(tank, None, None).unwrap();
     assert_eq!(hourly.len(), 3);
     let h10 = &hourly[0];
-    assert_eq!((h10.hour_start, h10.count), (at(2031, 5, 1, 10, 0, 0), 3));
+    assert_eq!((h10.hour_start, h10.count), (at(2024, 5, 1, 10, 0, 0), 3));
     // Hand-computed: salinity min 29.4, max 31.5, mean (30.0 + 31.5 + 29.4) / 3 = 90.9 / 3 = 30.3;
     // temperature mean (10 + 11 + 12) / 3 = 11; osmolality (900 + 930 + 870) / 3 = 900;
     // conductivity (40 + 41 + 39) / 3 = 40.
@@ -84,15 +84,15 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
     assert!(close(h10.conductivity_ms_cm.min, 39.0) && close(h10.conductivity_ms_cm.mean, 40.0));
     assert!(close(h10.conductivity_ms_cm.max, 41.0));
     let h11 = &hourly[1];
-    assert_eq!((h11.hour_start, h11.count), (at(2031, 5, 1, 11, 0, 0), 1));
+    assert_eq!((h11.hour_start, h11.count), (at(2024, 5, 1, 11, 0, 0), 1));
     assert!(close(h11.practical_salinity.min, 28.0) && close(h11.practical_salinity.mean, 28.0));
-    assert_eq!(hourly[2].hour_start, at(2031, 5, 2, 9, 0, 0));
+    assert_eq!(hourly[2].hour_start, at(2024, 5, 2, 9, 0, 0));
     assert_eq!(reader.hourly("oyster-d1", None, None).unwrap().len(), 1);
 
     // Late readings for the already-folded hour 10: they merge into the existing hourly row.
     let late = [
-        reading_full(tank, at(2031, 5, 1, 10, 55, 0), 32.0, 9.0, 950.0, 42.0),
-        reading_full(tank, at(2031, 5, 1, 10, 56, 0), 28.0, 13.0, 850.0, 38.0),
+        reading_full(tank, at(2024, 5, 1, 10, 55, 0), 32.0, 9.0, 950.0, 42.0),
+        reading_full(tank, at(2024, 5, 1, 10, 56, 0), 28.0, 13.0, 850.0, 38.0),
     ];
     for (i, row) in late.into_iter().enumerate() {
         writer
@@ -101,7 +101,7 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
     }
     let report = writer.blocking_run_retention(now, WEEK).unwrap();
     assert_eq!((report.readings_folded, report.hourly_rows_written), (2, 1));
-    let h10 = &reader.hourly(tank, None, Some(at(2031, 5, 1, 11, 0, 0))).unwrap()[0];
+    let h10 = &reader.hourly(tank, None, Some(at(2024, 5, 1, 11, 0, 0))).unwrap()[0];
     assert_eq!(h10.count, 5);
     // Hand-computed merge: salinity min 28.0, max 32.0, mean (90.9 + 32.0 + 28.0) / 5 = 150.9 / 5 = 30.18;
     // temperature (33 + 9 + 13) / 5 = 11, min 9, max 13; osmolality (2700 + 950 + 850) / 5 = 900;
@@ -143,7 +143,7 @@ fn old_readings_fold_into_hourly_rows_and_merge_with_later_passes() {
 fn a_second_pass_with_nothing_old_changes_nothing() {
     let db = temp_db();
     let mut conn = open_for_writing(&db.path, Duration::from_secs(5)).unwrap();
-    let now = at(2031, 5, 9, 10, 30, 0);
+    let now = at(2024, 5, 9, 10, 30, 0);
     let first = apply(&mut conn, now, &WEEK).unwrap();
     assert_eq!(
         (
@@ -161,17 +161,17 @@ fn old_rejections_are_deleted_only_when_asked() {
     let (writer, _reports, join) = spawn_writer::<u32>(&db.path, settings()).unwrap();
     writer
         .blocking_send(WriteItem::Rejection(
-            rejection(at(2031, 4, 1, 0, 0, 0), "old_reason", b""),
+            rejection(at(2024, 4, 1, 0, 0, 0), "old_reason", b""),
             1,
         ))
         .unwrap();
     writer
         .blocking_send(WriteItem::Rejection(
-            rejection(at(2031, 5, 9, 0, 0, 0), "new_reason", b""),
+            rejection(at(2024, 5, 9, 0, 0, 0), "new_reason", b""),
             2,
         ))
         .unwrap();
-    let now = at(2031, 5, 9, 10, 30, 0);
+    let now = at(2024, 5, 9, 10, 30, 0);
     assert_eq!(
         writer
             .blocking_run_retention(now, WEEK)

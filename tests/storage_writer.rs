@@ -29,7 +29,7 @@ fn acks<A: Clone>(report: &CommitReport<A>) -> Vec<A> {
 fn redelivered_reading_is_stored_once() {
     let db = temp_db();
     let (writer, mut reports, join) = spawn_writer::<u32>(&db.path, rows_only(100)).unwrap();
-    let row = reading("smolt-b2", at(2031, 5, 14, 6, 0, 0));
+    let row = reading("smolt-b2", at(2024, 5, 14, 6, 0, 0));
 
     writer.blocking_send(WriteItem::Reading(row.clone(), 1)).unwrap();
     writer.blocking_flush().unwrap();
@@ -62,7 +62,7 @@ fn redelivered_reading_is_stored_once() {
 fn same_key_twice_in_one_batch_counts_one_duplicate() {
     let db = temp_db();
     let (writer, mut reports, _join) = spawn_writer::<u32>(&db.path, rows_only(2)).unwrap();
-    let row = reading("smolt-b2", at(2031, 5, 14, 6, 0, 0));
+    let row = reading("smolt-b2", at(2024, 5, 14, 6, 0, 0));
     writer.blocking_send(WriteItem::Reading(row.clone(), 1)).unwrap();
     writer.blocking_send(WriteItem::Reading(row, 2)).unwrap();
     let report = reports.blocking_recv().unwrap();
@@ -77,7 +77,7 @@ fn batches_commit_when_flush_rows_is_reached_and_at_shutdown() {
     let db = temp_db();
     let (writer, mut reports, join) = spawn_writer::<u32>(&db.path, rows_only(3)).unwrap();
     for i in 0..7u32 {
-        let row = reading("parr-a1", at(2031, 5, 14, 6, i, 0));
+        let row = reading("parr-a1", at(2024, 5, 14, 6, i, 0));
         writer.blocking_send(WriteItem::Reading(row, i)).unwrap();
     }
     let first = reports.blocking_recv().unwrap();
@@ -108,7 +108,7 @@ fn a_pending_batch_commits_after_flush_ms_without_more_items() {
     let (writer, mut reports, join) = spawn_writer::<u32>(&db.path, settings).unwrap();
     writer
         .blocking_send(WriteItem::Reading(
-            reading("parr-a1", at(2031, 5, 14, 6, 0, 0)),
+            reading("parr-a1", at(2024, 5, 14, 6, 0, 0)),
             7,
         ))
         .unwrap();
@@ -129,7 +129,7 @@ fn acks_are_reported_only_after_their_rows_are_committed() {
     let mut sent = Vec::new();
     for i in 0..10u32 {
         let tank = tanks[i as usize % 2];
-        let row = reading(tank, at(2031, 5, 14, 7, i, 0));
+        let row = reading(tank, at(2024, 5, 14, 7, i, 0));
         let ack = (tank.to_owned(), row.time.timestamp_millis());
         sent.push(ack.clone());
         writer.blocking_send(WriteItem::Reading(row, ack)).unwrap();
@@ -168,7 +168,7 @@ fn failed_commits_are_retried_without_dropping_rows_or_releasing_acks() {
     for i in 0..3u32 {
         writer
             .blocking_send(WriteItem::Reading(
-                reading("holding-c1", at(2031, 5, 14, 8, i, 0)),
+                reading("holding-c1", at(2024, 5, 14, 8, i, 0)),
                 i,
             ))
             .unwrap();
@@ -213,13 +213,13 @@ fn abandoning_a_stuck_batch_stores_and_acks_nothing() {
     blocker.execute_batch("BEGIN IMMEDIATE").unwrap();
     writer
         .blocking_send(WriteItem::Reading(
-            reading("holding-c1", at(2031, 5, 14, 8, 0, 0)),
+            reading("holding-c1", at(2024, 5, 14, 8, 0, 0)),
             0,
         ))
         .unwrap();
     writer
         .blocking_send(WriteItem::Reading(
-            reading("holding-c1", at(2031, 5, 14, 8, 1, 0)),
+            reading("holding-c1", at(2024, 5, 14, 8, 1, 0)),
             1,
         ))
         .unwrap();
@@ -266,13 +266,13 @@ fn rejections_keep_at_most_256_payload_bytes() {
     let long: Vec<u8> = (0..300u32).map(|i| (i % 251) as u8).collect();
     writer
         .blocking_send(WriteItem::Rejection(
-            rejection(at(2031, 5, 14, 9, 0, 0), "payload_not_senml", &long),
+            rejection(at(2024, 5, 14, 9, 0, 0), "payload_not_senml", &long),
             1,
         ))
         .unwrap();
     writer
         .blocking_send(WriteItem::Rejection(
-            rejection(at(2031, 5, 14, 9, 1, 0), "payload_not_senml", b"{"),
+            rejection(at(2024, 5, 14, 9, 1, 0), "payload_not_senml", b"{"),
             2,
         ))
         .unwrap();
@@ -287,7 +287,7 @@ fn rejections_keep_at_most_256_payload_bytes() {
     let stored: Vec<u8> = conn
         .query_row(
             "SELECT payload_prefix FROM rejections WHERE time_ms = ?1",
-            [at(2031, 5, 14, 9, 0, 0).timestamp_millis()],
+            [at(2024, 5, 14, 9, 0, 0).timestamp_millis()],
             |r| r.get(0),
         )
         .unwrap();
@@ -302,15 +302,15 @@ fn rejections_keep_at_most_256_payload_bytes() {
         (counts[0].reason.as_str(), counts[0].count),
         ("payload_not_senml", 2)
     );
-    assert_eq!(counts[0].last_time, at(2031, 5, 14, 9, 1, 0));
+    assert_eq!(counts[0].last_time, at(2024, 5, 14, 9, 1, 0));
 }
 
 #[test]
 fn a_reading_with_a_non_finite_number_becomes_a_counted_rejection() {
     let db = temp_db();
     let (writer, mut reports, _join) = spawn_writer::<u32>(&db.path, rows_only(100)).unwrap();
-    let good = reading("smolt-b2", at(2031, 5, 14, 10, 0, 0));
-    let mut bad = reading("smolt-b2", at(2031, 5, 14, 10, 1, 0));
+    let good = reading("smolt-b2", at(2024, 5, 14, 10, 0, 0));
+    let mut bad = reading("smolt-b2", at(2024, 5, 14, 10, 1, 0));
     bad.derived.density_kg_m3 = f64::NAN;
     writer
         .blocking_send(WriteItem::Readings(vec![good.clone(), bad], 5))
@@ -341,14 +341,14 @@ fn ack_only_items_and_several_readings_per_message_keep_ack_order() {
     let db = temp_db();
     let (writer, mut reports, _join) = spawn_writer::<&'static str>(&db.path, rows_only(100)).unwrap();
     let two = vec![
-        reading("parr-a1", at(2031, 5, 14, 11, 0, 0)),
-        reading("parr-a1", at(2031, 5, 14, 11, 0, 1)),
+        reading("parr-a1", at(2024, 5, 14, 11, 0, 0)),
+        reading("parr-a1", at(2024, 5, 14, 11, 0, 1)),
     ];
     writer.blocking_send(WriteItem::Readings(two, "m1")).unwrap();
     writer.blocking_send(WriteItem::AckOnly("m2-ignored")).unwrap();
     writer
         .blocking_send(WriteItem::Rejection(
-            rejection(at(2031, 5, 14, 11, 0, 2), "unknown_tank", b"x"),
+            rejection(at(2024, 5, 14, 11, 0, 2), "unknown_tank", b"x"),
             "m3",
         ))
         .unwrap();
@@ -372,8 +372,8 @@ fn ack_only_items_count_towards_flush_rows() {
 fn daemon_state_keeps_the_last_written_state() {
     let db = temp_db();
     let (writer, mut reports, _join) = spawn_writer::<u32>(&db.path, rows_only(100)).unwrap();
-    let older = daemon_state(at(2031, 5, 14, 12, 0, 0), true, at(2031, 5, 14, 1, 0, 0));
-    let newer = daemon_state(at(2031, 5, 14, 12, 0, 5), false, at(2031, 5, 14, 12, 0, 3));
+    let older = daemon_state(at(2024, 5, 14, 12, 0, 0), true, at(2024, 5, 14, 1, 0, 0));
+    let newer = daemon_state(at(2024, 5, 14, 12, 0, 5), false, at(2024, 5, 14, 12, 0, 3));
     writer.blocking_send(WriteItem::DaemonState(older)).unwrap();
     writer
         .blocking_send(WriteItem::DaemonState(newer.clone()))
@@ -386,7 +386,7 @@ fn daemon_state_keeps_the_last_written_state() {
         Some(newer.clone())
     );
 
-    let later = daemon_state(at(2031, 5, 14, 12, 0, 10), true, at(2031, 5, 14, 12, 0, 9));
+    let later = daemon_state(at(2024, 5, 14, 12, 0, 10), true, at(2024, 5, 14, 12, 0, 9));
     writer
         .blocking_send(WriteItem::DaemonState(later.clone()))
         .unwrap();
@@ -428,14 +428,14 @@ async fn async_side_sends_and_awaits_reports() {
     let (writer, mut reports, join) = spawn_writer::<u32>(&db.path, rows_only(2)).unwrap();
     writer
         .send(WriteItem::Reading(
-            reading("smolt-b2", at(2031, 5, 14, 13, 0, 0)),
+            reading("smolt-b2", at(2024, 5, 14, 13, 0, 0)),
             1,
         ))
         .await
         .unwrap();
     writer
         .send(WriteItem::Reading(
-            reading("smolt-b2", at(2031, 5, 14, 13, 0, 1)),
+            reading("smolt-b2", at(2024, 5, 14, 13, 0, 1)),
             2,
         ))
         .await
@@ -444,7 +444,7 @@ async fn async_side_sends_and_awaits_reports() {
     assert_eq!(acks(&report), vec![1, 2]);
     writer
         .send(WriteItem::Reading(
-            reading("smolt-b2", at(2031, 5, 14, 13, 0, 2)),
+            reading("smolt-b2", at(2024, 5, 14, 13, 0, 2)),
             3,
         ))
         .await

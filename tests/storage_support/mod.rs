@@ -85,7 +85,7 @@ pub fn rejection(time: DateTime<Utc>, reason: &str, payload: &[u8]) -> Rejection
 pub fn daemon_state(updated_at: DateTime<Utc>, connected: bool, since: DateTime<Utc>) -> DaemonStateRow {
     DaemonStateRow {
         updated_at,
-        started_at: at(2031, 5, 14, 0, 0, 0),
+        started_at: at(2024, 5, 14, 0, 0, 0),
         broker_connected: connected,
         broker_state_since: since,
         reconnect_count: 3,
