@@ -130,8 +130,6 @@ pub fn run_at(args: &HistoryArgs, now: DateTime<Utc>, out: &mut dyn Write) -> an
             args.db.display()
         );
     }
-    let rows = reader.history(&args.tank, since, until)?;
-    let records = rows.iter().map(HistoryRecord::from);
     match args.format {
         HistoryFormat::Csv => {
             // The header is written by hand so an empty range still gets it.
@@ -139,14 +137,23 @@ pub fn run_at(args: &HistoryArgs, now: DateTime<Utc>, out: &mut dyn Write) -> an
             let mut csv = csv::WriterBuilder::new()
                 .has_headers(false)
                 .from_writer(&mut *out);
-            for record in records {
-                csv.serialize(record)?;
-            }
+            reader.history_for_each(&args.tank, since, until, |row| {
+                csv.serialize(HistoryRecord::from(&row))?;
+                Ok::<(), anyhow::Error>(())
+            })?;
             csv.flush()?;
         }
         HistoryFormat::Json => {
-            serde_json::to_writer_pretty(&mut *out, &records.collect::<Vec<_>>())?;
-            writeln!(out)?;
+            // A JSON array written element by element, so memory stays flat for long ranges.
+            let mut first = true;
+            write!(out, "[")?;
+            reader.history_for_each(&args.tank, since, until, |row| {
+                write!(out, "{}\n  ", if first { "" } else { "," })?;
+                first = false;
+                serde_json::to_writer(&mut *out, &HistoryRecord::from(&row))?;
+                Ok::<(), anyhow::Error>(())
+            })?;
+            writeln!(out, "{}]", if first { "" } else { "\n" })?;
         }
     }
     Ok(ExitCode::SUCCESS)

@@ -130,62 +130,63 @@ pub fn run(args: StatusArgs) -> anyhow::Result<ExitCode> {
 /// Reads the database and measures ages against `now`.
 pub fn build_report(args: &StatusArgs, now: DateTime<Utc>) -> Result<StatusReport, StorageError> {
     let reader = Reader::open(&args.db)?;
-    let latest = reader.latest_per_tank()?;
-    let tanks = reader
-        .reading_counts()?
-        .into_iter()
-        .map(|count| TankStatus {
-            latest: latest
-                .iter()
-                .find(|r| r.tank_id == count.tank_id)
-                .map(|r| LatestReading {
-                    time: stamp(r.time),
-                    age_s: seconds_between(r.time, now),
-                    source_topic: r.source_topic.clone(),
-                    conductivity_reported: r.conductivity_reported,
-                    conductivity_unit: r.conductivity_unit.clone(),
-                    conductivity_ms_cm: r.conductivity_ms_cm,
-                    temperature_c: r.temperature_c,
-                    pressure_dbar: r.pressure_dbar,
-                    derived: r.derived,
-                }),
-            tank_id: count.tank_id,
-            readings_stored: count.raw_readings,
-            readings_folded: count.folded_readings,
+    reader.snapshot(|reader| {
+        let latest = reader.latest_per_tank()?;
+        let tanks = reader
+            .reading_counts()?
+            .into_iter()
+            .map(|count| TankStatus {
+                latest: latest
+                    .iter()
+                    .find(|r| r.tank_id == count.tank_id)
+                    .map(|r| LatestReading {
+                        time: stamp(r.time),
+                        age_s: seconds_between(r.time, now),
+                        source_topic: r.source_topic.clone(),
+                        conductivity_reported: r.conductivity_reported,
+                        conductivity_unit: r.conductivity_unit.clone(),
+                        conductivity_ms_cm: r.conductivity_ms_cm,
+                        temperature_c: r.temperature_c,
+                        pressure_dbar: r.pressure_dbar,
+                        derived: r.derived,
+                    }),
+                tank_id: count.tank_id,
+                readings_stored: count.raw_readings,
+                readings_folded: count.folded_readings,
+            })
+            .collect();
+        let reasons = reader.rejection_counts_by_reason()?;
+        let rejections = RejectionSummary {
+            total: reasons.iter().map(|r| r.count).sum(),
+            by_reason: reasons.into_iter().map(reason_status).collect(),
+        };
+        let daemon = reader.daemon_state()?.map(|state| {
+            let update_age_s = seconds_between(state.updated_at, now);
+            DaemonStatus {
+                updated_at: stamp(state.updated_at),
+                update_age_s,
+                state_stale: update_age_s > DAEMON_STATE_STALE_AFTER_S,
+                started_at: stamp(state.started_at),
+                broker_connected: state.broker_connected,
+                broker_state_since: stamp(state.broker_state_since),
+                broker_outage_s: (!state.broker_connected)
+                    .then(|| seconds_between(state.broker_state_since, now)),
+                reconnect_count: state.reconnect_count,
+                accepted_count: state.accepted_count,
+                rejected_count: state.rejected_count,
+                ignored_count: state.ignored_count,
+            }
+        });
+        Ok(StatusReport {
+            database: args.db.display().to_string(),
+            schema_version: SCHEMA_VERSION,
+            generated_at: stamp(now),
+            tanks,
+            rejections,
+            daemon,
         })
-        .collect();
-    let reasons = reader.rejection_counts_by_reason()?;
-    let rejections = RejectionSummary {
-        total: reasons.iter().map(|r| r.count).sum(),
-        by_reason: reasons.into_iter().map(reason_status).collect(),
-    };
-    let daemon = reader.daemon_state()?.map(|state| {
-        let update_age_s = seconds_between(state.updated_at, now);
-        DaemonStatus {
-            updated_at: stamp(state.updated_at),
-            update_age_s,
-            state_stale: update_age_s > DAEMON_STATE_STALE_AFTER_S,
-            started_at: stamp(state.started_at),
-            broker_connected: state.broker_connected,
-            broker_state_since: stamp(state.broker_state_since),
-            broker_outage_s: (!state.broker_connected)
-                .then(|| seconds_between(state.broker_state_since, now)),
-            reconnect_count: state.reconnect_count,
-            accepted_count: state.accepted_count,
-            rejected_count: state.rejected_count,
-            ignored_count: state.ignored_count,
-        }
-    });
-    Ok(StatusReport {
-        database: args.db.display().to_string(),
-        schema_version: SCHEMA_VERSION,
-        generated_at: stamp(now),
-        tanks,
-        rejections,
-        daemon,
     })
 }
-
 /// The report as lines for people.
 pub fn render_text(report: &StatusReport) -> String {
     let mut s = String::new();

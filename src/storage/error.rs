@@ -60,8 +60,14 @@ pub enum StorageError {
     #[error("the storage writer has stopped")]
     WriterStopped,
     /// The writer was told to abandon a batch it could not commit; those items were neither stored nor acked.
-    #[error("the storage writer abandoned {pending_items} uncommitted items (not acked; the broker redelivers them)")]
-    Abandoned { pending_items: usize },
+    #[error(
+        "the storage writer abandoned {pending_rows} uncommitted rows and {pending_acks} acks \
+         (not acked, so the broker redelivers them)"
+    )]
+    Abandoned {
+        pending_rows: usize,
+        pending_acks: usize,
+    },
 }
 
 impl StorageError {

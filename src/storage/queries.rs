@@ -65,13 +65,29 @@ impl Reader {
         since: Option<DateTime<Utc>>,
         until: Option<DateTime<Utc>>,
     ) -> Result<Vec<ReadingRow>, StorageError> {
+        let mut rows = Vec::new();
+        self.history_for_each(tank_id, since, until, |row| {
+            rows.push(row);
+            Ok::<(), StorageError>(())
+        })?;
+        Ok(rows)
+    }
+
+    /// Like [`history`](Self::history), but hands each row to `each` as it is read (constant memory).
+    pub fn history_for_each<E: From<StorageError>>(
+        &self,
+        tank_id: &str,
+        since: Option<DateTime<Utc>>,
+        until: Option<DateTime<Utc>>,
+        mut each: impl FnMut(ReadingRow) -> Result<(), E>,
+    ) -> Result<(), E> {
+        let what = "query reading history";
         let sql = format!(
             "SELECT {READING_COLUMNS} FROM readings WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3 \
              ORDER BY time_ms, source_topic"
         );
         let since_ms = since.map_or(i64::MIN, time_to_ms);
         let until_ms = until.map_or(i64::MAX, time_to_ms);
-        let what = "query reading history";
         let mut stmt = self
             .conn
             .prepare_cached(&sql)
@@ -79,7 +95,29 @@ impl Reader {
         let rows = stmt
             .query_map(params![tank_id, since_ms, until_ms], reading_from_row)
             .map_err(StorageError::sqlite(what))?;
-        rows.map(|row| row.map_err(StorageError::sqlite(what))).collect()
+        for row in rows {
+            each(row.map_err(StorageError::sqlite(what))?)?;
+        }
+        Ok(())
+    }
+
+    /// Runs `read` inside one read transaction, so every query in it sees the same committed state.
+    pub fn snapshot<T>(
+        &self,
+        read: impl FnOnce(&Self) -> Result<T, StorageError>,
+    ) -> Result<T, StorageError> {
+        self.conn
+            .execute_batch("BEGIN")
+            .map_err(StorageError::sqlite("begin read snapshot"))?;
+        let result = read(self);
+        // Ending a read-only transaction cannot lose anything; report a failure only if `read` succeeded.
+        let end = self
+            .conn
+            .execute_batch("COMMIT")
+            .map_err(StorageError::sqlite("end read snapshot"));
+        let value = result?;
+        end?;
+        Ok(value)
     }
 
     /// Every tank with raw readings or hourly summaries, sorted.

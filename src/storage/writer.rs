@@ -116,6 +116,9 @@ pub struct WriterSummary {
 /// The writer thread's join handle.
 pub type WriterJoinHandle = JoinHandle<Result<WriterSummary, StorageError>>;
 
+/// What [`spawn_writer`] returns: the handle to queue items, the commit-report receiver, the thread.
+pub type SpawnedWriter<A> = (WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle);
+
 enum Message<A> {
     Item(WriteItem<A>),
     Flush(oneshot::Sender<()>),
@@ -229,7 +232,7 @@ impl<A: Send + 'static> WriterHandle<A> {
 pub fn spawn_writer<A: Send + 'static>(
     path: &Path,
     settings: WriterSettings,
-) -> Result<(WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle), StorageError> {
+) -> Result<SpawnedWriter<A>, StorageError> {
     let conn = open_for_writing(path, settings.busy_timeout)?;
     let runtime = tokio::runtime::Builder::new_current_thread()
         .enable_time()
@@ -320,10 +323,6 @@ impl<A> Batch<A> {
         let limit = flush_rows.max(1);
         self.rows() >= limit || self.acks.len() >= limit
     }
-
-    fn item_count(&self) -> usize {
-        self.rows() + self.acks.len() + usize::from(self.state.is_some())
-    }
 }
 
 #[derive(Debug, Default)]
@@ -353,10 +352,12 @@ impl<A: Send + 'static> Writer<A> {
                 None => self.runtime.block_on(self.inbox.recv()),
                 Some(oldest) => {
                     let deadline = tokio::time::Instant::from_std(oldest + flush_after);
-                    match self
+                    // The timer must be created inside the runtime (it registers with its time driver).
+                    let inbox = &mut self.inbox;
+                    let received = self
                         .runtime
-                        .block_on(tokio::time::timeout_at(deadline, self.inbox.recv()))
-                    {
+                        .block_on(async move { tokio::time::timeout_at(deadline, inbox.recv()).await });
+                    match received {
                         Ok(next) => next,
                         Err(_elapsed) => {
                             self.commit()?;
@@ -406,12 +407,19 @@ impl<A: Send + 'static> Writer<A> {
                 Err(err) => {
                     self.shared.failed_attempts.fetch_add(1, Ordering::SeqCst);
                     self.summary.failed_attempts += 1;
-                    tracing::warn!(error = %err, attempts, retry_in = ?delay, pending = self.batch.item_count(),
+                    tracing::warn!(error = %err, attempts, retry_in = ?delay, pending_rows = self.batch.rows(),
                         "storage commit failed; rows kept, acks held, retrying");
                     if self.sleep_unless_abandoned(delay) {
-                        let pending_items = self.batch.item_count();
-                        tracing::error!(pending_items, "storage writer abandoned an uncommitted batch");
-                        return Err(StorageError::Abandoned { pending_items });
+                        let (pending_rows, pending_acks) = (self.batch.rows(), self.batch.acks.len());
+                        tracing::error!(
+                            pending_rows,
+                            pending_acks,
+                            "storage writer abandoned an uncommitted batch"
+                        );
+                        return Err(StorageError::Abandoned {
+                            pending_rows,
+                            pending_acks,
+                        });
                     }
                     delay = (delay * 2).min(self.settings.retry_max);
                 }
