@@ -9,6 +9,7 @@ pub mod convert_csv;
 pub mod history;
 pub mod logging;
 pub mod run;
+pub mod species;
 pub mod status;
 pub mod time_arg;
 
@@ -33,6 +34,8 @@ pub enum Command {
     History(history::HistoryArgs),
     /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
     Status(status::StatusArgs),
+    /// Species profiles (list, show) and the isosmotic salinity of a species.
+    Species(species::SpeciesArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -44,6 +47,7 @@ pub fn main() -> ExitCode {
         Command::Run(args) => run::run(args),
         Command::History(args) => history::run(args),
         Command::Status(args) => status::run(args),
+        Command::Species(args) => species::run(args),
     };
     match result {
         Ok(code) => code,
