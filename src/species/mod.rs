@@ -1,13 +1,13 @@
 //! Species profiles and tonicity: what a tank's water means for the animal in it.
 //!
 //! Pure: no I/O beyond reading a library file on request, no clock. Files:
-//! - [`provenance`]: where each value comes from;
-//! - [`profile`]: the profile types (units in the JSON keys);
-//! - [`library`]: loading and validating `config/species.toml`, lookup, per-tank merge;
-//! - [`overrides`]: a tank's `[tanks.species_override]`;
-//! - [`tonicity`]: hyper-/iso-/hypoosmotic, gradient, water-potential difference, water movement;
-//! - [`isosmotic`]: the salinity isosmotic with a plasma, solved on TEOS-10;
-//! - [`error`]: [`SpeciesError`].
+//! - [`provenance`] — where each value comes from;
+//! - [`profile`] — the profile types (units in the JSON keys);
+//! - [`library`] — loading and validating `config/species.toml`, lookup, per-tank merge;
+//! - [`overrides`] — a tank's `[tanks.species_override]`;
+//! - [`tonicity`] — hyper-/iso-/hypoosmotic, gradient, water-potential difference, water movement;
+//! - [`isosmotic`] — the salinity isosmotic with a plasma, solved on TEOS-10;
+//! - [`error`] — [`SpeciesError`].
 pub mod error;
 pub mod isosmotic;
 pub mod library;
