@@ -4,7 +4,7 @@ use serde::Serialize;
 
 use super::provenance::Provenance;
 
-/// Isosmotic band used when neither the profile nor the tank sets one, mOsm/kg (issue default ±25).
+/// Isosmotic band used when neither the profile nor the tank sets one, mOsm/kg (halotank default ±25).
 pub const DEFAULT_ISOSMOTIC_BAND_MOSM_KG: f64 = 25.0;
 
 /// The caution shown with every profile.

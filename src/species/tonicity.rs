@@ -199,7 +199,7 @@ mod tests {
 
     #[test]
     fn band_edges_count_as_isosmotic() {
-        // The rule: isosmotic within ±25 mOsm/kg (edges included, exact in binary floating point).
+        // halotank's default rule: isosmotic within ±25 mOsm/kg (edges included, exact in binary floating point).
         assert_eq!(classify(335.0, 310.0, 25.0), Tonicity::Isosmotic);
         assert_eq!(classify(285.0, 310.0, 25.0), Tonicity::Isosmotic);
         assert_eq!(classify(335.000_001, 310.0, 25.0), Tonicity::Hyperosmotic);
