@@ -8,6 +8,7 @@
 //!   UNESCO 1983, TEOS-10), one file per equation family.
 //! - [`config`]: the TOML configuration, parsed once into validated structs.
 //! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
+//! - [`species`]: species profiles with provenance, tonicity and isosmotic salinity.
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
@@ -21,4 +22,5 @@ pub mod demo;
 pub mod ingest;
 pub mod mqtt;
 pub mod seawater;
+pub mod species;
 pub mod storage;

@@ -10,6 +10,7 @@ pub mod demo;
 pub mod history;
 pub mod logging;
 pub mod run;
+pub mod species;
 pub mod status;
 pub mod time_arg;
 
@@ -36,6 +37,8 @@ pub enum Command {
     Status(status::StatusArgs),
     /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
     Demo(demo::DemoArgs),
+    /// Species profiles (list, show) and the isosmotic salinity of a species.
+    Species(species::SpeciesArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -48,6 +51,7 @@ pub fn main() -> ExitCode {
         Command::History(args) => history::run(args),
         Command::Status(args) => status::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Species(args) => species::run(args),
     };
     match result {
         Ok(code) => code,

@@ -6,6 +6,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::seawater::{ConductivityUnit, ProbeMode};
+use crate::species::SpeciesOverride;
 
 use super::defaults;
 use super::error::Invalid;
@@ -118,8 +119,10 @@ pub struct TankConfig {
     pub volume_l: f64,
     /// Sea pressure at the probe, dbar (probe depth; 0 at the surface).
     pub pressure_dbar: f64,
-    /// Species kept (parsed and kept; used by species limits in a later release).
+    /// Species profile id in the species library.
     pub species: Option<String>,
+    /// Site values merged onto the species profile (`[tanks.species_override]`).
+    pub species_override: Option<SpeciesOverride>,
     /// The topics the tank listens to.
     pub topics: TankTopics,
     /// JSON key names.
@@ -181,6 +184,7 @@ pub(crate) struct RawTank {
     name: String,
     volume_l: f64,
     species: Option<String>,
+    species_override: Option<SpeciesOverride>,
     topics: Option<RawTopics>,
     format: Option<PayloadFormat>,
     conductivity_format: Option<PayloadFormat>,
@@ -219,6 +223,11 @@ fn pick<T: Clone>(
     inherited
         .and_then(|v| v.clone())
         .map(|value| (value, defaults_path.key(key)))
+}
+
+/// `base` extended by a dotted relative key (`salinity_optimum.min`).
+fn key_under(base: &KeyPath, dotted: &str) -> KeyPath {
+    dotted.split('.').fold(base.clone(), |path, key| path.key(key))
 }
 
 /// Checks a tank id: 1 to 64 characters of `a-z`, `0-9`, `_`, `-`.
@@ -275,6 +284,14 @@ impl RawTank {
             Some(s) => Some(s.trim().to_string()),
             None => None,
         };
+        if let Some(o) = &self.species_override {
+            let key = path.key("species_override");
+            if species.is_none() {
+                return Err(Invalid::new(key, "needs a `species` for the tank to override"));
+            }
+            o.check()
+                .map_err(|(sub, message)| Invalid::new(key_under(&key, &sub), message))?;
+        }
         let (topics, origins) = self.resolve_topics(path, defaults, &dpath)?;
         let json_keys = self.resolve_json_keys(path, defaults, &dpath)?;
         let conductivity_unit = match pick(
@@ -311,6 +328,7 @@ impl RawTank {
                 volume_l: self.volume_l,
                 pressure_dbar,
                 species,
+                species_override: self.species_override.clone(),
                 topics,
                 json_keys,
                 conductivity_unit,

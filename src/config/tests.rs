@@ -639,3 +639,49 @@ fn unreadable_file_names_the_path() {
         .to_string()
         .starts_with("/nonexistent/halotank.toml: cannot read"));
 }
+
+/// A tank without its topics table, ending in an open `species = "` for the id to follow.
+const TANK_SPECIES: &str = "\n[[tanks]]\nid = \"tank-a\"\nname = \"Tank A\"\nvolume_l = 1000\nspecies = \"";
+const TOPICS: &str = "[tanks.topics]\ncombined = \"site/tank-a/state\"\n";
+
+#[test]
+fn a_species_override_is_parsed_and_checked() {
+    let text = format!(
+        "{BASE}{TANK_SPECIES}atlantic_salmon_smolt\"\n{TOPICS}\
+         [tanks.species_override]\n\
+         salinity_optimum = {{ min = 30.0 }}\n\
+         max_rate_sp_per_h = 4.0\n\
+         source = \"site fish-health plan\"\n"
+    );
+    let c = ok(&text);
+    let o = c.tanks[0].species_override.as_ref().unwrap();
+    assert_eq!(o.salinity_optimum.unwrap().min, Some(30.0));
+    assert_eq!(o.max_rate_sp_per_h, Some(4.0));
+    // The merge onto the embedded library profile.
+    let library = crate::species::SpeciesLibrary::embedded().unwrap();
+    let p = library.profile_for_tank(&c.tanks[0]).unwrap().unwrap();
+    assert_eq!(p.salinity_optimum.min, 30.0);
+    assert_eq!(p.max_rate_sp_per_h_at(30.0), Some(4.0));
+}
+
+#[test]
+fn a_species_override_needs_a_species_and_sound_values() {
+    let text = format!("{BASE}{TANK_A}[tanks.species_override]\nmax_rate_sp_per_h = 4.0\n");
+    let (line, key, message, _) = bad(&text);
+    assert_eq!(key, "tanks[0].species_override");
+    assert_eq!(line, Some(line_of(&text, "[tanks.species_override]")));
+    assert!(message.contains("species"), "{message}");
+
+    let text = format!(
+        "{BASE}{TANK_SPECIES}blue_mussel\"\n{TOPICS}[tanks.species_override]\n\
+         salinity_tolerance = {{ min = 30.0, max = 20.0 }}\n"
+    );
+    let (line, key, _, _) = bad(&text);
+    assert_eq!(key, "tanks[0].species_override.salinity_tolerance.min");
+    assert_eq!(line, Some(line_of(&text, "salinity_tolerance")));
+
+    let text =
+        format!("{BASE}{TANK_SPECIES}blue_mussel\"\n{TOPICS}[tanks.species_override]\nsalinity_range = 3\n");
+    let (_, _, message, _) = bad(&text);
+    assert!(message.contains("salinity_range"), "{message}");
+}
