@@ -8,6 +8,7 @@
 //!   UNESCO 1983, TEOS-10), one file per equation family.
 //! - [`config`]: the TOML configuration, parsed once into validated structs.
 //! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
+//! - [`planner`]: acclimation plans (setpoint ramps and the mass balances of each method).
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
@@ -20,5 +21,6 @@ pub mod daemon;
 pub mod demo;
 pub mod ingest;
 pub mod mqtt;
+pub mod planner;
 pub mod seawater;
 pub mod storage;
