@@ -9,6 +9,10 @@ pub mod convert_csv;
 pub mod demo;
 pub mod history;
 pub mod logging;
+pub mod plan;
+pub mod plan_chart;
+pub mod plan_options;
+pub mod plan_output;
 pub mod run;
 pub mod status;
 pub mod time_arg;
@@ -34,6 +38,8 @@ pub enum Command {
     History(history::HistoryArgs),
     /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
     Status(status::StatusArgs),
+    /// Plan an acclimation: setpoints over time and what to do at each step (drain, add, flow, salt).
+    Plan(Box<plan::PlanArgs>),
     /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
     Demo(demo::DemoArgs),
 }
@@ -48,6 +54,7 @@ pub fn main() -> ExitCode {
         Command::History(args) => history::run(args),
         Command::Status(args) => status::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Plan(args) => plan::run(*args),
     };
     match result {
         Ok(code) => code,
