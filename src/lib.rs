@@ -9,6 +9,7 @@
 //! - [`config`]: the TOML configuration, parsed once into validated structs.
 //! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
 //! - [`species`]: species profiles with provenance, tonicity and isosmotic salinity.
+//! - [`planner`]: acclimation plans (setpoint ramps and the mass balances of each method).
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
@@ -21,6 +22,7 @@ pub mod daemon;
 pub mod demo;
 pub mod ingest;
 pub mod mqtt;
+pub mod planner;
 pub mod seawater;
 pub mod species;
 pub mod storage;

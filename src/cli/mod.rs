@@ -9,6 +9,10 @@ pub mod convert_csv;
 pub mod demo;
 pub mod history;
 pub mod logging;
+pub mod plan;
+pub mod plan_chart;
+pub mod plan_options;
+pub mod plan_output;
 pub mod run;
 pub mod species;
 pub mod status;
@@ -35,6 +39,8 @@ pub enum Command {
     History(history::HistoryArgs),
     /// Show each tank's latest reading, stored counts, rejections and the daemon's broker link.
     Status(status::StatusArgs),
+    /// Plan an acclimation: setpoints over time and what to do at each step (drain, add, flow, salt).
+    Plan(Box<plan::PlanArgs>),
     /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
     Demo(demo::DemoArgs),
     /// Species profiles (list, show) and the isosmotic salinity of a species.
@@ -52,6 +58,7 @@ pub fn main() -> ExitCode {
         Command::Status(args) => status::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Species(args) => species::run(args),
+        Command::Plan(args) => plan::run(*args),
     };
     match result {
         Ok(code) => code,
