@@ -11,12 +11,14 @@ use clap::{Args, ValueEnum};
 use crate::cli::plan_chart::plan_chart_svg;
 use crate::cli::plan_options::{parse_hold, parse_hours, parse_range, parse_rate, RateArg};
 use crate::cli::plan_output::{write_blend_csv, write_blend_table, write_csv, write_table};
+use crate::planner::from_species;
 use crate::planner::salt::DEFAULT_DISSOLVE_WATER_L_PER_KG;
 use crate::planner::water::MAX_PLAN_PRACTICAL_SALINITY;
 use crate::planner::{
     blend_batch, make_plan, BlendRequest, Hold, Method, PlanRequest, Ramp, RampShape, RateLimits,
     SalinityLimits,
 };
+use crate::species::SpeciesLibrary;
 
 const EXAMPLES: &str = "\
 Examples (tanks of the Brannock Sound hatchery):
@@ -36,8 +38,8 @@ Examples (tanks of the Brannock Sound hatchery):
   halotank plan --method blend --to 18 --temperature 12 --source-a 0.4 --source-b 34 --batch-volume 300
 
 Rates: SP/h as 2/h, % of the current salinity per hour as 10%/h, osmolality as 20mOsm/h (/d for per day).
-A later `--species ID` will fill --max-rate, --slow-below, --slow-rate, --optimum and --tolerance from the
-species profile; until then give them here.
+`--species ID` fills --max-rate, --slow-below, --slow-rate, --optimum and --tolerance from the
+built-in species profile where they are not given here.
 
 Plans are indicative: follow a fish-health professional's advice and local rules, and verify the tank with
 a calibrated meter before and after each step.";
@@ -110,6 +112,10 @@ pub struct PlanArgs {
     /// Tolerated salinity range, low-high (a target outside it is flagged).
     #[arg(long, value_parser = parse_range)]
     pub tolerance: Option<(f64, f64)>,
+    /// Species profile id (`halotank species list`): fills --max-rate, --slow-below, --slow-rate,
+    /// --optimum and --tolerance from the built-in library where those are not given.
+    #[arg(long)]
+    pub species: Option<String>,
     /// When the first step is due: RFC 3339 time or `now`.
     #[arg(long, default_value = "now")]
     pub start: String,
@@ -238,6 +244,29 @@ pub fn plan_request(args: &PlanArgs, now: DateTime<Utc>) -> anyhow::Result<PlanR
     };
     let (max_sp, max_percent) = split_rates("--max-rate", &args.max_rate)?;
     let (slow_sp, slow_percent) = split_rates("--slow-rate", &args.slow_rate)?;
+    let explicit_rates = RateLimits {
+        max_rate_sp_per_h: max_sp,
+        max_rate_percent_per_h: max_percent,
+        slow_below_sp: args.slow_below,
+        slow_rate_sp_per_h: slow_sp,
+        slow_rate_percent_per_h: slow_percent,
+    };
+    let (rate_limits, salinity_limits) = match &args.species {
+        None => (explicit_rates, salinity_limits(args)),
+        Some(id) => {
+            let library = SpeciesLibrary::embedded()?;
+            let profile = library.get(id).with_context(|| {
+                format!(
+                    "unknown species `{id}`; known: {}",
+                    library.ids().collect::<Vec<_>>().join(", ")
+                )
+            })?;
+            let rates =
+                from_species::merge_rate_limits(explicit_rates, from_species::rate_limits_of(profile));
+            let limits = salinity_limits(args).unwrap_or_else(|| from_species::salinity_limits_of(profile));
+            (rates, Some(limits))
+        }
+    };
     Ok(PlanRequest {
         tank_volume_l: required(args.volume, "--volume", "plans")?,
         from_practical_salinity: required(args.from, "--from", "plans")?,
@@ -255,14 +284,8 @@ pub fn plan_request(args: &PlanArgs, now: DateTime<Utc>) -> anyhow::Result<PlanR
                 duration_h,
             })
             .collect(),
-        rate_limits: RateLimits {
-            max_rate_sp_per_h: max_sp,
-            max_rate_percent_per_h: max_percent,
-            slow_below_sp: args.slow_below,
-            slow_rate_sp_per_h: slow_sp,
-            slow_rate_percent_per_h: slow_percent,
-        },
-        salinity_limits: salinity_limits(args),
+        rate_limits,
+        salinity_limits,
     })
 }
 

@@ -14,6 +14,7 @@ pub mod checks;
 pub mod error;
 pub mod exchange;
 pub mod flow;
+pub mod from_species;
 pub mod limits;
 pub mod plan;
 pub mod ramp;
