@@ -8,11 +8,13 @@
 //!   UNESCO 1983, TEOS-10), one file per equation family.
 //! - [`config`]: the TOML configuration, parsed once into validated structs.
 //! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
+//! - [`alerts`]: the alert engine (rules, hysteresis, lifecycle) with an injected clock.
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
 //! - [`cli`]: the command-line front end.
+pub mod alerts;
 pub mod cli;
 pub mod config;
 pub mod daemon;
