@@ -71,7 +71,8 @@ pub const fn rule(kind: AlertKind) -> (bool, u64, u64, u64) {
         // A spike alert clears after 10 spike-free minutes, so an intermittent fault does not flap.
         AlertKind::ProbeSpike => (true, 0, 3600, 600),
         AlertKind::ProbeFlatLine => (true, 0, 3600, 0),
-        AlertKind::ProbeInconsistent => (true, 120, 3600, 0),
+        // Both checks are windowed already; an impossible jump raises at once and clears after 5 quiet minutes.
+        AlertKind::ProbeInconsistent => (true, 0, 3600, 300),
         AlertKind::NearFreezing => (true, 60, 900, 0),
         AlertKind::ScheduleOff => (true, 300, 1800, 0),
         AlertKind::ScheduleStepDue => (true, 0, 900, 0),

@@ -192,7 +192,11 @@ mod tests {
         assert_eq!(d.update(Level::Raise, 220, T), Some(Edge::Raise));
         d.update(Level::Clear, 300, T);
         d.update(Level::Raise, 320, T);
-        assert_eq!(d.update(Level::Clear, 360, T), None, "the clear hold restarted at 360");
+        assert_eq!(
+            d.update(Level::Clear, 360, T),
+            None,
+            "the clear hold restarted at 360"
+        );
         assert_eq!(d.update(Level::Clear, 410, T), Some(Edge::Clear));
     }
 

@@ -11,7 +11,7 @@ use thiserror::Error;
 
 use super::detector::{DetectorState, Edge, Level};
 use super::event::AlertEvent;
-use super::kind::{AlertId, AlertKey, AlertKind, KIND_COUNT};
+use super::kind::{AlertId, AlertKey, AlertKind};
 use super::lifecycle::{AckError, AlertRecord, AlertState, ClearOutcome};
 use super::limits::{AlertLimits, LimitsError};
 use super::message;
@@ -199,7 +199,12 @@ impl AlertEngine {
     }
 
     /// Evaluates one accepted reading of a tank across every rule.
-    pub fn on_reading(&mut self, tank: TankSlot, reading: &AlertReading, now: DateTime<Utc>) -> Vec<AlertEvent> {
+    pub fn on_reading(
+        &mut self,
+        tank: TankSlot,
+        reading: &AlertReading,
+        now: DateTime<Utc>,
+    ) -> Vec<AlertEvent> {
         let mut events = Vec::new();
         let Some(rules) = self.tanks.get_mut(tank.0) else {
             self.counters.unknown_tank += 1;
@@ -221,7 +226,11 @@ impl AlertEngine {
                 continue;
             }
             // Probe-stale is timed by the engine clock, every reading rule by the reading's own time.
-            let at_ms = if kind == AlertKind::ProbeStale { now_ms } else { t_ms };
+            let at_ms = if kind == AlertKind::ProbeStale {
+                now_ms
+            } else {
+                t_ms
+            };
             let rules = &mut self.tanks[tank.0];
             let timing = rules.timing[kind.index()];
             if let Some(edge) = rules.detectors[kind.index()].update(level, at_ms, timing) {
@@ -242,7 +251,10 @@ impl AlertEngine {
             self.feed(slot, kind, level, now_ms, now, &mut events);
             for kind in [AlertKind::ScheduleOff, AlertKind::ScheduleStepDue] {
                 let detector = self.tanks[slot].detectors[kind.index()];
-                if matches!(detector.state(), DetectorState::Pending { .. } | DetectorState::Clearing { .. }) {
+                if matches!(
+                    detector.state(),
+                    DetectorState::Pending { .. } | DetectorState::Clearing { .. }
+                ) {
                     self.feed(slot, kind, detector.last_level(), now_ms, now, &mut events);
                 }
             }
@@ -251,7 +263,10 @@ impl AlertEngine {
             let Some(slot) = entry.slot else { continue };
             let tank = &self.tanks[slot];
             let kind = entry.record.kind;
-            if entry.record.renotify_due(now, tank.settings.rule(kind).renotify_s) {
+            if entry
+                .record
+                .renotify_due(now, tank.settings.rule(kind).renotify_s)
+            {
                 entry.record.mark_notified(now);
                 let text = message::renotify_text(&entry.record, &tank.observations[kind.index()]);
                 events.push(AlertEvent::Renotify {
@@ -265,7 +280,12 @@ impl AlertEngine {
     }
 
     /// A signal from the acclimation planner.
-    pub fn on_schedule(&mut self, tank: TankSlot, signal: ScheduleSignal, now: DateTime<Utc>) -> Vec<AlertEvent> {
+    pub fn on_schedule(
+        &mut self,
+        tank: TankSlot,
+        signal: ScheduleSignal,
+        now: DateTime<Utc>,
+    ) -> Vec<AlertEvent> {
         let mut events = Vec::new();
         let Some(rules) = self.tanks.get_mut(tank.0) else {
             self.counters.unknown_tank += 1;
@@ -301,7 +321,10 @@ impl AlertEngine {
                 })
                 .ok_or_else(|| AckError::NotOpen(key.to_string()))?,
         };
-        let entry = self.open.get_mut(&id).ok_or_else(|| AckError::NotOpen(id.to_string()))?;
+        let entry = self
+            .open
+            .get_mut(&id)
+            .ok_or_else(|| AckError::NotOpen(id.to_string()))?;
         let closed = entry.record.acknowledge(by, note, now)?;
         let record = entry.record.clone();
         if closed {
@@ -388,7 +411,9 @@ impl AlertEngine {
         let obs = tank.observations[k];
         match (edge, tank.open[k]) {
             (Edge::Raise, Some(id)) => {
-                let Some(entry) = self.open.get_mut(&id) else { return };
+                let Some(entry) = self.open.get_mut(&id) else {
+                    return;
+                };
                 if entry.record.condition_returned(now) {
                     let text = message::raised_text(&tank.id, kind, &obs);
                     let (value, limit) = obs.value_and_limit();
@@ -439,7 +464,9 @@ impl AlertEngine {
                 });
             }
             (Edge::Clear, Some(id)) => {
-                let Some(entry) = self.open.get_mut(&id) else { return };
+                let Some(entry) = self.open.get_mut(&id) else {
+                    return;
+                };
                 let outcome = entry.record.condition_cleared(now);
                 if outcome == ClearOutcome::Unchanged {
                     return;
@@ -459,6 +486,3 @@ impl AlertEngine {
         }
     }
 }
-
-/// Number of rule kinds (for callers sizing per-kind tables).
-pub const RULE_KINDS: usize = KIND_COUNT;

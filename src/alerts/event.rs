@@ -10,15 +10,35 @@ use super::lifecycle::AlertRecord;
 #[serde(tag = "event", rename_all = "snake_case")]
 pub enum AlertEvent {
     /// A new alert.
-    Raised { alert: AlertRecord, at: DateTime<Utc>, message: String },
+    Raised {
+        alert: AlertRecord,
+        at: DateTime<Utc>,
+        message: String,
+    },
     /// Still raised and unacknowledged after the re-notify interval.
-    Renotify { alert: AlertRecord, at: DateTime<Utc>, message: String },
+    Renotify {
+        alert: AlertRecord,
+        at: DateTime<Utc>,
+        message: String,
+    },
     /// A critical alert held for acknowledgement saw its condition return (same id, raised again).
-    Recurred { alert: AlertRecord, at: DateTime<Utc>, message: String },
+    Recurred {
+        alert: AlertRecord,
+        at: DateTime<Utc>,
+        message: String,
+    },
     /// The condition ended (`alert.state` says whether it closed or waits for acknowledgement).
-    Cleared { alert: AlertRecord, at: DateTime<Utc>, message: String },
+    Cleared {
+        alert: AlertRecord,
+        at: DateTime<Utc>,
+        message: String,
+    },
     /// Someone acknowledged it (`alert.state` is `cleared` if that closed it).
-    Acknowledged { alert: AlertRecord, at: DateTime<Utc>, message: String },
+    Acknowledged {
+        alert: AlertRecord,
+        at: DateTime<Utc>,
+        message: String,
+    },
 }
 
 impl AlertEvent {

@@ -119,9 +119,10 @@ impl AlertKind {
     /// The severity of every alert of this kind.
     pub fn severity(self) -> Severity {
         match self {
-            Self::SalinityTolerance | Self::TemperatureTolerance | Self::SalinityRate | Self::NearFreezing => {
-                Severity::Critical
-            }
+            Self::SalinityTolerance
+            | Self::TemperatureTolerance
+            | Self::SalinityRate
+            | Self::NearFreezing => Severity::Critical,
             Self::ScheduleStepDue => Severity::Info,
             _ => Severity::Warning,
         }

@@ -106,7 +106,11 @@ pub enum AckError {
     NotOpen(String),
     /// Already acknowledged.
     #[error("alert {id} was already acknowledged by {by} at {at}")]
-    AlreadyAcknowledged { id: AlertId, by: String, at: DateTime<Utc> },
+    AlreadyAcknowledged {
+        id: AlertId,
+        by: String,
+        at: DateTime<Utc>,
+    },
     /// The name of who acknowledges is empty.
     #[error("an acknowledgement needs the name of who acknowledges")]
     MissingName,
@@ -161,7 +165,12 @@ impl AlertRecord {
     }
 
     /// Acknowledges; returns whether that closed the alert (it had already cleared).
-    pub fn acknowledge(&mut self, by: &str, note: Option<&str>, now: DateTime<Utc>) -> Result<bool, AckError> {
+    pub fn acknowledge(
+        &mut self,
+        by: &str,
+        note: Option<&str>,
+        now: DateTime<Utc>,
+    ) -> Result<bool, AckError> {
         let by = by.trim();
         if by.is_empty() {
             return Err(AckError::MissingName);
@@ -182,7 +191,9 @@ impl AlertRecord {
                 self.state = AlertState::Cleared;
                 true
             }
-            AlertState::Acknowledged | AlertState::Cleared => return Err(AckError::NotOpen(self.id.to_string())),
+            AlertState::Acknowledged | AlertState::Cleared => {
+                return Err(AckError::NotOpen(self.id.to_string()))
+            }
         };
         self.acknowledgement = Some(Acknowledgement {
             by: by.to_string(),
@@ -247,11 +258,17 @@ mod tests {
         let mut r = record(AlertKind::SalinityTolerance);
         assert_eq!(r.condition_cleared(at(10)), ClearOutcome::HeldForAcknowledgement);
         assert!(r.state.is_open());
-        assert!(!r.renotify_due(at(100_000), 60), "no repeats once the condition ended");
+        assert!(
+            !r.renotify_due(at(100_000), 60),
+            "no repeats once the condition ended"
+        );
         assert_eq!(r.acknowledge("Ines", Some(" pump restarted "), at(20)), Ok(true));
         assert_eq!(r.state, AlertState::Cleared);
         let ack = r.acknowledgement.clone().unwrap();
-        assert_eq!((ack.by.as_str(), ack.at, ack.note.as_deref()), ("Ines", at(20), Some("pump restarted")));
+        assert_eq!(
+            (ack.by.as_str(), ack.at, ack.note.as_deref()),
+            ("Ines", at(20), Some("pump restarted"))
+        );
     }
 
     #[test]
@@ -273,7 +290,10 @@ mod tests {
         r.condition_cleared(at(10));
         assert!(r.condition_returned(at(30)));
         assert_eq!(r.state, AlertState::Raised);
-        assert_eq!((r.notify_count, r.last_notified_at, r.cleared_at), (2, at(30), None));
+        assert_eq!(
+            (r.notify_count, r.last_notified_at, r.cleared_at),
+            (2, at(30), None)
+        );
         assert!(!r.condition_returned(at(40)));
     }
 

@@ -141,14 +141,26 @@ impl AlertLimits {
     pub fn validate(&self) -> Result<(), LimitsError> {
         let pairs = [
             ("salinity", self.salinity_optimum, self.salinity_tolerance),
-            ("temperature_c", self.temperature_optimum_c, self.temperature_tolerance_c),
+            (
+                "temperature_c",
+                self.temperature_optimum_c,
+                self.temperature_tolerance_c,
+            ),
         ];
         for (name, optimum, tolerance) in pairs {
             if let Some(b) = optimum {
-                b.check(if name == "salinity" { "salinity_optimum" } else { "temperature_optimum_c" })?;
+                b.check(if name == "salinity" {
+                    "salinity_optimum"
+                } else {
+                    "temperature_optimum_c"
+                })?;
             }
             if let Some(b) = tolerance {
-                b.check(if name == "salinity" { "salinity_tolerance" } else { "temperature_tolerance_c" })?;
+                b.check(if name == "salinity" {
+                    "salinity_tolerance"
+                } else {
+                    "temperature_tolerance_c"
+                })?;
             }
             if let (Some(o), Some(t)) = (optimum, tolerance) {
                 if !t.contains_range(&o) {

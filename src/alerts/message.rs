@@ -147,7 +147,11 @@ pub fn acknowledged_text(record: &AlertRecord) -> String {
         .map(|a| (a.by.as_str(), a.note.as_deref()))
         .unwrap_or(("?", None));
     let note = note.map(|n| format!(": {n}")).unwrap_or_default();
-    let closed = if record.state.is_open() { "" } else { " (already cleared; now closed)" };
+    let closed = if record.state.is_open() {
+        ""
+    } else {
+        " (already cleared; now closed)"
+    };
     format!(
         "Tank {}: alert {} ({}) acknowledged by {by}{note}{closed}.",
         record.tank, record.id, record.kind

@@ -314,7 +314,9 @@ impl AlertSettings {
     pub fn check(&self) -> Result<(), AlertSettingsError> {
         self.check_scalars()?;
         for kind in AlertKind::ALL {
-            let Some(rule) = self.rules.get(kind) else { continue };
+            let Some(rule) = self.rules.get(kind) else {
+                continue;
+            };
             for (field, value) in [
                 ("min_duration_s", rule.min_duration_s),
                 ("renotify_s", rule.renotify_s),
@@ -411,11 +413,15 @@ mod tests {
         )
         .unwrap();
         let species: AlertSettings =
-            toml::from_str("freezing_margin_c = 0.8\n[rules.salinity_optimum]\nmin_duration_s = 120\n").unwrap();
-        let tank: AlertSettings =
-            toml::from_str("[rules.salinity_optimum]\nenabled = false\n[rules.probe_spike]\nrenotify_s = 0\n")
+            toml::from_str("freezing_margin_c = 0.8\n[rules.salinity_optimum]\nmin_duration_s = 120\n")
                 .unwrap();
-        let merged = AlertSettings::layered(&[&global, &species, &tank]).resolve().unwrap();
+        let tank: AlertSettings = toml::from_str(
+            "[rules.salinity_optimum]\nenabled = false\n[rules.probe_spike]\nrenotify_s = 0\n",
+        )
+        .unwrap();
+        let merged = AlertSettings::layered(&[&global, &species, &tank])
+            .resolve()
+            .unwrap();
         assert_eq!(merged.freezing_margin_c, 0.8);
         assert_eq!(merged.stale_multiple, 4.0);
         let rule = merged.rule(AlertKind::SalinityOptimum);

@@ -83,10 +83,18 @@ impl TankRules {
     pub fn configure(&mut self, limits: AlertLimits, settings: ResolvedAlertSettings) {
         let s = &settings;
         self.bands = [
-            limits.salinity_optimum.map(|b| Band::new(b, s.salinity_hysteresis_sp)),
-            limits.salinity_tolerance.map(|b| Band::new(b, s.salinity_hysteresis_sp)),
-            limits.temperature_optimum_c.map(|b| Band::new(b, s.temperature_hysteresis_c)),
-            limits.temperature_tolerance_c.map(|b| Band::new(b, s.temperature_hysteresis_c)),
+            limits
+                .salinity_optimum
+                .map(|b| Band::new(b, s.salinity_hysteresis_sp)),
+            limits
+                .salinity_tolerance
+                .map(|b| Band::new(b, s.salinity_hysteresis_sp)),
+            limits
+                .temperature_optimum_c
+                .map(|b| Band::new(b, s.temperature_hysteresis_c)),
+            limits
+                .temperature_tolerance_c
+                .map(|b| Band::new(b, s.temperature_hysteresis_c)),
         ];
         self.timing = AlertKind::ALL.map(|k| Timing {
             min_duration_ms: seconds_ms(s.rule(k).min_duration_s),
@@ -183,7 +191,13 @@ impl TankRules {
         self.set(&mut levels, AlertKind::ProbeInconsistent, judged);
 
         let s = &self.settings;
-        let judged = freezing::level(sp, r.pressure_dbar, temp, s.freezing_margin_c, s.freezing_hysteresis_c);
+        let judged = freezing::level(
+            sp,
+            r.pressure_dbar,
+            temp,
+            s.freezing_margin_c,
+            s.freezing_hysteresis_c,
+        );
         self.set(&mut levels, AlertKind::NearFreezing, judged);
 
         self.set(
@@ -219,7 +233,9 @@ impl TankRules {
     fn stale_observation(&self, now_ms: i64) -> Observation {
         let interval = self.limits.expected_interval_s as f64;
         Observation::Stale {
-            age_s: self.last_heard_ms.map_or(0.0, |t| now_ms.saturating_sub(t) as f64 / 1000.0),
+            age_s: self
+                .last_heard_ms
+                .map_or(0.0, |t| now_ms.saturating_sub(t) as f64 / 1000.0),
             limit_s: interval * self.settings.stale_multiple,
             expected_interval_s: interval,
             ever_heard: true,

@@ -20,7 +20,9 @@ pub struct Band {
 impl Band {
     /// The band of a range with a hysteresis, capped at a quarter of the range's width.
     pub fn new(bounds: Bounds, hysteresis: f64) -> Self {
-        let h = hysteresis.min((bounds.high - bounds.low) * HYSTERESIS_MAX_FRACTION_OF_RANGE).max(0.0);
+        let h = hysteresis
+            .min((bounds.high - bounds.low) * HYSTERESIS_MAX_FRACTION_OF_RANGE)
+            .max(0.0);
         Self {
             low: bounds.low,
             high: bounds.high,

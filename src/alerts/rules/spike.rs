@@ -81,10 +81,19 @@ mod tests {
         for sp in [30.0, 30.1, 35.0, 29.9, 30.0] {
             ring.push(sample(sp, 12.0));
         }
-        assert_eq!(level(&ring, &sample(30.2, 12.0), 9, 1.0, 1.0, 0.5).0, Level::Clear);
+        assert_eq!(
+            level(&ring, &sample(30.2, 12.0), 9, 1.0, 1.0, 0.5).0,
+            Level::Clear
+        );
         assert_eq!(level(&ring, &sample(30.7, 12.0), 9, 1.0, 1.0, 0.5).0, Level::Hold);
-        assert_eq!(level(&ring, &sample(31.5, 12.0), 9, 1.0, 1.0, 0.5).0, Level::Raise);
-        assert_eq!(level(&ring, &sample(30.0, 10.5), 9, 1.0, 1.0, 0.5).0, Level::Raise);
+        assert_eq!(
+            level(&ring, &sample(31.5, 12.0), 9, 1.0, 1.0, 0.5).0,
+            Level::Raise
+        );
+        assert_eq!(
+            level(&ring, &sample(30.0, 10.5), 9, 1.0, 1.0, 0.5).0,
+            Level::Raise
+        );
     }
 
     #[test]
@@ -92,7 +101,10 @@ mod tests {
         let mut ring = Samples::new();
         ring.push(sample(30.0, 12.0));
         ring.push(sample(30.0, 12.0));
-        assert_eq!(level(&ring, &sample(40.0, 12.0), 9, 1.0, 1.0, 0.5).0, Level::Unknown);
+        assert_eq!(
+            level(&ring, &sample(40.0, 12.0), 9, 1.0, 1.0, 0.5).0,
+            Level::Unknown
+        );
     }
 
     #[test]
