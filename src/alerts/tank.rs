@@ -1,5 +1,8 @@
 //! `TankRules`: one tank's limits, settings, windows and rule conditions; turns a reading (or the clock)
 //! into one [`Level`] per rule. Fixed-size state only: nothing here allocates per reading.
+//!
+//! While the spike rule is on, a reading it flags is kept out of the salinity-rate window, and cannot clear (or reset
+//! the timer of) the range, rate and near-freezing conditions: implausible data never makes things look better.
 use super::detector::{Detector, Level, Timing};
 use super::kind::{AlertId, AlertKind, KIND_COUNT};
 use super::limits::AlertLimits;
@@ -42,6 +45,16 @@ pub(crate) struct TankRules {
     last_heard_ms: Option<i64>,
     watch_since_ms: Option<i64>,
 }
+
+/// Rules a spike reading cannot clear.
+const SPIKE_CANNOT_CLEAR: [AlertKind; 6] = [
+    AlertKind::SalinityOptimum,
+    AlertKind::SalinityTolerance,
+    AlertKind::TemperatureOptimum,
+    AlertKind::TemperatureTolerance,
+    AlertKind::SalinityRate,
+    AlertKind::NearFreezing,
+];
 
 fn seconds_ms(s: u64) -> i64 {
     (s as i64).saturating_mul(1000)
@@ -163,7 +176,8 @@ impl TankRules {
             s.spike_threshold_c,
             s.spike_clear_fraction,
         );
-        let is_spike = spiked.0 == Level::Raise;
+        // With the spike rule switched off, every reading is taken at face value.
+        let is_spike = spiked.0 == Level::Raise && self.enabled(AlertKind::ProbeSpike);
         self.set(&mut levels, AlertKind::ProbeSpike, spiked);
         self.samples.push(sample);
 
@@ -199,6 +213,16 @@ impl TankRules {
             s.freezing_hysteresis_c,
         );
         self.set(&mut levels, AlertKind::NearFreezing, judged);
+
+        if is_spike {
+            // Fail-safe: an implausible reading may start a condition's minimum duration, but never clears
+            // a condition or resets its timer.
+            for kind in SPIKE_CANNOT_CLEAR {
+                if levels[kind.index()] == Level::Clear {
+                    levels[kind.index()] = Level::Unknown;
+                }
+            }
+        }
 
         self.set(
             &mut levels,

@@ -2,8 +2,8 @@
 //!
 //! The median of the last `window` readings is robust to the spike itself and to a few earlier ones.
 //! A reading whose deviation exceeds a threshold is a spike; the rule clears once readings lie within
-//! `clear_fraction` of the thresholds (and, by default, stay so for `clear_after_s`). Spike readings are
-//! also kept out of the salinity-rate fit.
+//! `clear_fraction` of the thresholds (and, by default, stay so for `clear_after_s`). While the rule is on,
+//! spike readings are also kept out of the salinity-rate fit and cannot clear other conditions.
 use super::{Sample, Samples, SAMPLE_CAPACITY};
 use crate::alerts::detector::Level;
 use crate::alerts::observation::Observation;

@@ -152,3 +152,34 @@ fn bad_and_out_of_order_readings_are_counted_not_evaluated() {
         (1, 1, 1, 2)
     );
 }
+
+#[test]
+fn a_spike_back_into_range_does_not_clear_an_alert() {
+    let mut rig = Rig::new(
+        sea_limits(),
+        only(&[AlertKind::SalinityTolerance, AlertKind::ProbeSpike], |_| {}),
+    );
+    for i in 0..10 {
+        rig.read(i * 60, 37.0 + 0.01 * (i % 2) as f64, 12.0);
+    }
+    assert_eq!(rig.engine.open_alerts().count(), 1);
+    // One implausible in-range reading: a spike alert, but the tolerance alert is not cleared.
+    let events = rig.read(600, 30.0, 12.0);
+    assert_eq!(names(&events), vec![("raised", AlertKind::ProbeSpike)]);
+    let tolerance = rig
+        .engine
+        .open_alerts()
+        .find(|r| r.kind == AlertKind::SalinityTolerance)
+        .unwrap();
+    assert_eq!(tolerance.state, AlertState::Raised);
+    // Sustained in-range readings do clear it.
+    let events = rig.read(660, 30.0, 12.0);
+    assert!(events.is_empty() || names(&events) == vec![("cleared", AlertKind::SalinityTolerance)]);
+    let mut cleared = !events.is_empty();
+    for i in 12..20 {
+        if names(&rig.read(i * 60, 30.0, 12.0)).contains(&("cleared", AlertKind::SalinityTolerance)) {
+            cleared = true;
+        }
+    }
+    assert!(cleared);
+}

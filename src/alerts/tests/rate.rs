@@ -46,13 +46,25 @@ fn a_fast_ramp_raises_once_the_span_is_reached_and_clears_when_it_stops() {
 
 #[test]
 fn noise_and_a_single_spike_do_not_raise_the_rate_rule() {
-    let mut rig = rate_only(sea_limits());
+    // The spike rule on: it keeps the spike out of the rate fit (and raises its own alert).
+    let mut rig = Rig::new(
+        sea_limits(),
+        only(&[AlertKind::SalinityRate, AlertKind::ProbeSpike], |_| {}),
+    );
     let mut n = noise(7);
+    let mut spikes = 0;
     for i in 0..600 {
-        // ±0.05 SP noise, one +5 SP spike at reading 300.
-        let sp = 30.0 + 0.05 * n() + if i == 300 { 5.0 } else { 0.0 };
-        assert!(rig.read(i * 60, sp, 12.0).is_empty(), "raised at reading {i}");
+        // ±0.05 SP noise, one +8 SP spike at reading 300 (left in the fit, it alone would tilt the slope
+        // by about 8 SP × 0.25 h / 0.625 h² = 3.2 SP/h, above the 2 SP/h maximum).
+        let sp = 30.0 + 0.05 * n() + if i == 300 { 8.0 } else { 0.0 };
+        let events = rig.read(i * 60, sp, 12.0);
+        assert!(
+            events.iter().all(|e| e.alert().kind == AlertKind::ProbeSpike),
+            "reading {i}: {events:?}"
+        );
+        spikes += events.iter().filter(|e| e.name() == "raised").count();
     }
+    assert_eq!(spikes, 1);
 }
 
 #[test]
