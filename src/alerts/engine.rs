@@ -67,7 +67,8 @@ pub struct EngineCounters {
 pub struct RestoreReport {
     /// Open alerts linked back to their tank's rule.
     pub linked: usize,
-    /// Open alerts of tanks no longer configured: kept open (listable, acknowledgeable), never re-notified.
+    /// Open alerts of tanks no longer configured, or of rules now switched off: kept open (listable),
+    /// never re-notified; acknowledging one closes it.
     pub orphaned: usize,
     /// A second open alert for a key already linked: kept open, not linked.
     pub duplicate_key: usize,
@@ -325,7 +326,11 @@ impl AlertEngine {
             .open
             .get_mut(&id)
             .ok_or_else(|| AckError::NotOpen(id.to_string()))?;
-        let closed = entry.record.acknowledge(by, note, now)?;
+        let mut closed = entry.record.acknowledge(by, note, now)?;
+        if !closed && entry.slot.is_none() {
+            // No rule watches an unlinked alert (its tank or rule is gone), so nothing would ever clear it.
+            closed = entry.record.condition_cleared(now) == ClearOutcome::Closed;
+        }
         let record = entry.record.clone();
         if closed {
             if let Some(slot) = entry.slot {
@@ -357,7 +362,11 @@ impl AlertEngine {
                 report.skipped += 1;
                 continue;
             }
-            let mut slot = self.by_id.get(&record.tank).copied();
+            let mut slot = self
+                .by_id
+                .get(&record.tank)
+                .copied()
+                .filter(|&s| self.tanks[s].enabled(record.kind));
             match slot {
                 None => report.orphaned += 1,
                 Some(s) => {

@@ -175,6 +175,13 @@ fn restore_keeps_held_orphaned_and_duplicate_alerts_open() {
     let mut orphan = held.clone();
     orphan.id = AlertId(50);
     orphan.tank = "retired-tank".into();
+    // A raised alert of a rule this tank no longer runs (probe-stale is off in `critical_rig`).
+    let mut rule_off = held.clone();
+    rule_off.id = AlertId(49);
+    rule_off.kind = AlertKind::ProbeStale;
+    rule_off.severity = Severity::Warning;
+    rule_off.state = AlertState::Raised;
+    rule_off.cleared_at = None;
     let mut duplicate = held.clone();
     duplicate.id = AlertId(51);
     let mut closed = held.clone();
@@ -182,19 +189,20 @@ fn restore_keeps_held_orphaned_and_duplicate_alerts_open() {
     closed.state = AlertState::Cleared;
 
     let mut restarted = critical_rig();
-    let report = restarted
-        .engine
-        .restore(vec![held.clone(), orphan, duplicate, closed, held.clone()], 52);
+    let records = vec![held.clone(), orphan, rule_off, duplicate, closed, held.clone()];
+    let report = restarted.engine.restore(records, 52);
     assert_eq!(
         report,
         RestoreReport {
             linked: 1,
-            orphaned: 1,
+            orphaned: 2,
             duplicate_key: 1,
             skipped: 2
         }
     );
-    assert_eq!(restarted.engine.open_alerts().count(), 3);
+    assert_eq!(restarted.engine.open_alerts().count(), 4);
+    // Unlinked alerts are never repeated.
+    assert!(restarted.tick(100_000).iter().all(|e| e.name() != "renotify"));
     // The held alert is not a present condition: in-range readings do nothing, acknowledging closes it.
     assert!(restarted.read(200, 30.0, 12.0).is_empty());
     let event = restarted
@@ -208,5 +216,19 @@ fn restore_keeps_held_orphaned_and_duplicate_alerts_open() {
         .engine
         .acknowledge(&AlertRef::Key(key), "Marit", None, t(301))
         .is_ok());
+    // A raised unlinked alert closes when acknowledged: no rule is left to clear it.
+    let event = restarted
+        .engine
+        .acknowledge(
+            &AlertRef::Id(AlertId(49)),
+            "Marit",
+            Some("probe-stale switched off"),
+            t(302),
+        )
+        .unwrap();
+    assert_eq!(event.alert().state, AlertState::Cleared);
     assert_eq!(restarted.engine.open_alerts().count(), 1);
+    // New ids continue above the highest stored one.
+    restarted.read(400, 19.0, 12.0);
+    assert_eq!(restarted.read(460, 19.0, 12.0)[0].id(), AlertId(53));
 }
