@@ -10,12 +10,14 @@
 //! - [`ingest`]: payload parsing, validation, temperature pairing, topic routing.
 //! - [`species`]: species profiles with provenance, tonicity and isosmotic salinity.
 //! - [`planner`]: acclimation plans (setpoint ramps and the mass balances of each method).
+//! - [`alerts`]: the alert engine (rules, hysteresis, lifecycle) with an injected clock.
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
 //! - [`demo`]: `halotank demo` (simulated probes; the scenario itself is pure).
 //! - [`cli`]: the command-line front end.
+pub mod alerts;
 pub mod cli;
 pub mod config;
 pub mod daemon;
