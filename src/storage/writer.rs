@@ -353,9 +353,11 @@ impl<A: Send + 'static> Writer<A> {
                 None => self.runtime.block_on(self.inbox.recv()),
                 Some(oldest) => {
                     let deadline = tokio::time::Instant::from_std(oldest + flush_after);
+                    // The timer must be created inside the runtime (tokio panics otherwise).
+                    let inbox = &mut self.inbox;
                     match self
                         .runtime
-                        .block_on(tokio::time::timeout_at(deadline, self.inbox.recv()))
+                        .block_on(async { tokio::time::timeout_at(deadline, inbox.recv()).await })
                     {
                         Ok(next) => next,
                         Err(_elapsed) => {
@@ -478,4 +480,31 @@ fn write_batch<A>(conn: &mut Connection, batch: &Batch<A>) -> rusqlite::Result<T
     }
     tx.commit()?;
     Ok(counts)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A partial batch is committed by the `flush_ms` timer (regression: the timer was once created
+    /// outside the writer's runtime, which panicked the writer thread on the first partial batch).
+    #[test]
+    fn partial_batch_is_committed_by_the_timer() {
+        let dir = tempfile::tempdir().unwrap();
+        let settings = WriterSettings {
+            flush_rows: 100,
+            flush_ms: 20,
+            ..WriterSettings::default()
+        };
+        let (writer, mut reports, join) =
+            spawn_writer::<u32>(&dir.path().join("t.sqlite3"), settings).unwrap();
+        writer.blocking_send(WriteItem::AckOnly(7)).unwrap();
+        writer.blocking_send(WriteItem::AckOnly(8)).unwrap();
+        let report = reports
+            .blocking_recv()
+            .expect("writer thread ended without a commit report");
+        assert_eq!(report.acks, vec![7, 8]);
+        drop(writer);
+        join.join().unwrap().unwrap();
+    }
 }
