@@ -459,3 +459,53 @@ async fn binary_stops_gracefully_on_sigterm() {
     })
     .await;
 }
+
+/// A payload larger than the MQTT client's packet cap (not only the ingest cap) must not wedge the
+/// session: the readings after it are still stored.
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn oversized_packet_does_not_block_later_readings() {
+    within_limit(async {
+        let (_broker, site, _observer, mut probe, daemon) = start_site("oversized").await;
+        let mut huge = br#"{"conductivity": 41.2, "temperature": 12.0, "pad": ""#.to_vec();
+        huge.extend(std::iter::repeat_n(b'x', 200_000));
+        huge.extend(br#""}"#);
+        // The test peer's own packet cap is 10 KiB; a plain client with a larger one sends the payload.
+        let mut o = rumqttc::MqttOptions::new(unique("big-sender"), "127.0.0.1", _broker.addr().port());
+        o.set_max_packet_size(1 << 20, 1 << 20);
+        let (big, mut eventloop) = rumqttc::AsyncClient::new(o, 8);
+        big.publish(site.json_topic(), rumqttc::QoS::AtLeastOnce, false, huge)
+            .await
+            .unwrap();
+        tokio::time::timeout(DEADLINE, async {
+            loop {
+                if let rumqttc::Event::Incoming(rumqttc::Incoming::PubAck(_)) =
+                    eventloop.poll().await.unwrap()
+                {
+                    break;
+                }
+            }
+        })
+        .await
+        .expect("broker never acked the big publish");
+        let time = past_time(50_000);
+        probe
+            .publish_acked(
+                &site.json_topic(),
+                json_payload(44.0, 12.0, time).as_bytes(),
+                false,
+            )
+            .await;
+        wait_for_readings(&site.db, 2).await;
+        let reader = Reader::open(&site.db).unwrap();
+        assert_eq!(reader.history(JSON_TANK, Some(time), None).unwrap().len(), 1);
+        let rejected = poll_until("the oversized payload's rejection", || {
+            let got = rejections_by_reason(&site.db);
+            (!got.is_empty()).then_some(got)
+        })
+        .await;
+        assert_eq!(rejected, BTreeMap::from([("payload_too_large".to_string(), 1)]));
+        let summary = daemon.stop().await;
+        assert_eq!(summary.rejected, 1, "{summary:?}");
+    })
+    .await;
+}
