@@ -423,3 +423,93 @@ pub fn send_sigterm(pid: u32) {
         .expect("run kill");
     assert!(status.success(), "kill -TERM {pid} failed");
 }
+
+/// Publishes `payloads` on `topic` at QoS 1 from a plain rumqttc client with a persistent session (so
+/// what is in flight across a dropped connection is resent); returns the PUBACKs counted once at least
+/// one arrived per payload.
+pub fn spawn_stream(
+    broker: SocketAddr,
+    client_id: String,
+    topic: String,
+    payloads: Vec<String>,
+) -> JoinHandle<u64> {
+    tokio::spawn(async move {
+        let mut o = rumqttc::MqttOptions::new(client_id, broker.ip().to_string(), broker.port());
+        o.set_clean_session(false)
+            .set_keep_alive(Duration::from_secs(5))
+            .set_inflight(100);
+        let (client, mut eventloop) = rumqttc::AsyncClient::new(o, 256);
+        let n = payloads.len() as u64;
+        let sender = tokio::spawn(async move {
+            for payload in payloads {
+                client
+                    .publish(&topic, rumqttc::QoS::AtLeastOnce, false, payload)
+                    .await
+                    .unwrap();
+            }
+            client
+        });
+        let mut acked = 0u64;
+        let deadline = tokio::time::Instant::now() + Duration::from_secs(120);
+        while acked < n {
+            assert!(
+                tokio::time::Instant::now() < deadline,
+                "publisher: {acked} of {n} acked"
+            );
+            match tokio::time::timeout(Duration::from_secs(10), eventloop.poll()).await {
+                Ok(Ok(rumqttc::Event::Incoming(rumqttc::Incoming::PubAck(_)))) => acked += 1,
+                Ok(Ok(_)) => {}
+                Ok(Err(e)) => {
+                    eprintln!("publisher connection lost, reconnecting: {e}");
+                    tokio::time::sleep(Duration::from_millis(50)).await;
+                }
+                Err(_) => panic!("publisher: no event for 10 s ({acked} of {n} acked)"),
+            }
+        }
+        let client = sender.await.unwrap();
+        // Leave without a session behind.
+        let _ = client.disconnect().await;
+        let _ = tokio::time::timeout(Duration::from_secs(2), async {
+            while eventloop.poll().await.is_ok() {}
+        })
+        .await;
+        acked
+    })
+}
+
+/// Removes a persistent session from a broker: connect with the same id and a clean session.
+pub async fn drop_session(broker: SocketAddr, client_id: &str) {
+    let mut o = rumqttc::MqttOptions::new(client_id, broker.ip().to_string(), broker.port());
+    o.set_clean_session(true);
+    let (client, mut eventloop) = rumqttc::AsyncClient::new(o, 8);
+    let _ = tokio::time::timeout(Duration::from_secs(5), async {
+        loop {
+            match eventloop.poll().await {
+                Ok(rumqttc::Event::Incoming(rumqttc::Incoming::ConnAck(_))) => {
+                    let _ = client.disconnect().await;
+                }
+                Ok(rumqttc::Event::Outgoing(rumqttc::Outgoing::Disconnect)) | Err(_) => break,
+                Ok(_) => {}
+            }
+        }
+    })
+    .await;
+}
+
+/// The address in `HALOTANK_TEST_MQTT`, or `None` after printing why the test is skipped.
+pub async fn mosquitto_from_env(test: &str) -> Option<SocketAddr> {
+    let Ok(spec) = std::env::var("HALOTANK_TEST_MQTT") else {
+        eprintln!(
+            "{test}: skipped: set HALOTANK_TEST_MQTT=host:port (a Mosquitto allowing anonymous clients)"
+        );
+        return None;
+    };
+    let addr = tokio::net::lookup_host(spec.as_str())
+        .await
+        .ok()
+        .and_then(|mut a| a.next());
+    match addr {
+        Some(a) => Some(a),
+        None => panic!("HALOTANK_TEST_MQTT={spec:?} does not resolve to host:port"),
+    }
+}
