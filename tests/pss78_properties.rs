@@ -58,9 +58,8 @@ proptest! {
         t in prop_oneof![Just(f64::NAN), -100.0_f64..100.0],
         p in prop_oneof![Just(f64::NAN), -1e4_f64..2e4],
     ) {
-        match practical_salinity_from_conductivity(c, t, p) {
-            Ok(sp) => prop_assert!(sp.is_finite() && sp >= 0.0, "C {} t {} p {} -> {}", c, t, p, sp),
-            Err(_) => {}
+        if let Ok(sp) = practical_salinity_from_conductivity(c, t, p) {
+            prop_assert!(sp.is_finite() && sp >= 0.0, "C {} t {} p {} -> {}", c, t, p, sp);
         }
     }
 }

@@ -196,12 +196,9 @@ pub fn practical_salinity_from_conductivity_ratio(
 /// One branch for the whole input check on the fast path (NaN fails every comparison).
 #[inline(always)]
 fn inputs_usable(conductivity: f64, temperature_c: f64, pressure_dbar: f64) -> bool {
-    conductivity >= 0.0
-        && conductivity < f64::INFINITY
-        && temperature_c >= MIN_TEMPERATURE_C
-        && temperature_c <= MAX_TEMPERATURE_C
-        && pressure_dbar >= 0.0
-        && pressure_dbar <= MAX_PRESSURE_DBAR
+    (0.0..f64::INFINITY).contains(&conductivity)
+        && (MIN_TEMPERATURE_C..=MAX_TEMPERATURE_C).contains(&temperature_c)
+        && (0.0..=MAX_PRESSURE_DBAR).contains(&pressure_dbar)
 }
 
 /// The typed error for inputs [`inputs_usable`] refused.
@@ -269,7 +266,7 @@ fn hill_extended(sp_pss78: f64, rtx: f64, t68: f64, ft68: f64) -> f64 {
 /// Accepts a computed SP, turning rounding residue just below 0 into 0 and refusing anything else unusable.
 #[inline(always)]
 fn checked_result(sp: f64) -> Result<f64, ScienceError> {
-    if sp >= 0.0 && sp < f64::INFINITY {
+    if (0.0..f64::INFINITY).contains(&sp) {
         Ok(sp)
     } else {
         unusable_result(sp)

@@ -116,6 +116,9 @@ pub struct WriterSummary {
 /// The writer thread's join handle.
 pub type WriterJoinHandle = JoinHandle<Result<WriterSummary, StorageError>>;
 
+/// What [`spawn_writer`] returns: the queue handle, the commit reports, and the thread's join handle.
+pub type WriterParts<A> = (WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle);
+
 enum Message<A> {
     Item(WriteItem<A>),
     Flush(oneshot::Sender<()>),
@@ -229,7 +232,7 @@ impl<A: Send + 'static> WriterHandle<A> {
 pub fn spawn_writer<A: Send + 'static>(
     path: &Path,
     settings: WriterSettings,
-) -> Result<(WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle), StorageError> {
+) -> Result<WriterParts<A>, StorageError> {
     let conn = open_for_writing(path, settings.busy_timeout)?;
     let runtime = tokio::runtime::Builder::new_current_thread()
         .enable_time()
