@@ -509,3 +509,40 @@ async fn oversized_packet_does_not_block_later_readings() {
     })
     .await;
 }
+
+/// Many tanks at once: every commit carries a state per tank; the acks must not queue behind the state
+/// publishes (they once did, and the daemon crawled at one publish timeout per tank).
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn many_tanks_at_full_speed_are_all_stored() {
+    within_limit(async {
+        mqtt_support::init_logging();
+        let broker = EmbeddedBroker::start().await.unwrap();
+        let options = SiteOptions {
+            extra_tanks: 500,
+            ..SiteOptions::default()
+        };
+        let site = Site::new("many-tanks", broker.addr(), &options);
+        let mut observer = Peer::connect(broker.addr(), &unique("observer"), true).await;
+        observer.subscribe(&format!("{}/#", site.prefix)).await;
+        let daemon = InProcessDaemon::start(&site);
+        wait_for_online(&mut observer, &site).await;
+        let mut probe = Peer::connect(broker.addr(), &unique("probe-sim"), true).await;
+        warm_up(&mut probe, &site).await;
+        const READINGS: usize = 5_000;
+        let messages = (0..READINGS)
+            .map(|i| {
+                let topic = format!("{}/bulk-{:04}/state", site.root, i % 500);
+                (topic, json_payload(30.0, 12.0, past_time(1_000 + i as i64)))
+            })
+            .collect();
+        let publisher = spawn_stream_to(broker.addr(), unique("bulk-pub"), messages);
+        assert!(publisher.await.unwrap() >= READINGS as u64);
+        assert_eq!(
+            wait_for_readings(&site.db, 1 + READINGS as u64).await,
+            1 + READINGS as u64
+        );
+        let summary = daemon.stop().await;
+        assert_eq!(summary.readings_stored, 1 + READINGS as u64, "{summary:?}");
+    })
+    .await;
+}

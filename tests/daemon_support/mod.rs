@@ -433,15 +433,28 @@ pub fn spawn_stream(
     topic: String,
     payloads: Vec<String>,
 ) -> JoinHandle<u64> {
+    spawn_stream_to(
+        broker,
+        client_id,
+        payloads.into_iter().map(|p| (topic.clone(), p)).collect(),
+    )
+}
+
+/// [`spawn_stream`] with a topic per message.
+pub fn spawn_stream_to(
+    broker: SocketAddr,
+    client_id: String,
+    messages: Vec<(String, String)>,
+) -> JoinHandle<u64> {
     tokio::spawn(async move {
         let mut o = rumqttc::MqttOptions::new(client_id, broker.ip().to_string(), broker.port());
         o.set_clean_session(false)
             .set_keep_alive(Duration::from_secs(5))
             .set_inflight(100);
         let (client, mut eventloop) = rumqttc::AsyncClient::new(o, 256);
-        let n = payloads.len() as u64;
+        let n = messages.len() as u64;
         let sender = tokio::spawn(async move {
-            for payload in payloads {
+            for (topic, payload) in messages {
                 client
                     .publish(&topic, rumqttc::QoS::AtLeastOnce, false, payload)
                     .await
