@@ -231,7 +231,16 @@ async fn broker_restart_mid_stream_loses_nothing_the_broker_acked() {
         let mut mosquitto = PrivateMosquitto::new(bin, broker_dir.path());
         mosquitto.start().await;
         let broker = mosquitto.addr();
-        let site = Site::new("mosq-restart", broker, &SiteOptions::default());
+        // A deliberately slow consumer, so readings are waiting at the broker when it stops: the daemon's
+        // window (1000) is larger than Mosquitto's in-flight limit (100), so a batch never fills and is
+        // committed by its 300 ms timer, 100 readings at a time.
+        let slow = SiteOptions {
+            max_inflight: 1000,
+            flush_rows: 1000,
+            flush_ms: 300,
+            ..SiteOptions::default()
+        };
+        let site = Site::new("mosq-restart", broker, &slow);
         let daemon = InProcessDaemon::start(&site);
         warm_up(broker, &site).await;
 
@@ -275,7 +284,7 @@ async fn broker_restart_mid_stream_loses_nothing_the_broker_acked() {
             writeln!(stdin, "{line}").unwrap();
         }
         stdin.flush().unwrap();
-        wait_for_readings(&site.db, 1 + 300).await;
+        wait_for_readings(&site.db, 1 + 100).await;
 
         mosquitto.stop().await;
         let acked_before = acked.lock().unwrap().len() as u64;
