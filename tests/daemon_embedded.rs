@@ -77,23 +77,29 @@ async fn start_site(label: &str) -> (EmbeddedBroker, Site, Peer, Peer, InProcess
     (broker, site, observer, probe, daemon)
 }
 
-/// Waits for the state of `tank` whose `time` is `time`; returns its JSON.
-async fn wait_for_state(observer: &mut Peer, site: &Site, tank: &str, time: &str) -> serde_json::Value {
-    let topic = site.state_topic(tank);
+/// Waits until the state of every `(tank, time)` has arrived (in any order); returns each tank's JSON.
+async fn wait_for_states(
+    observer: &mut Peer,
+    site: &Site,
+    wanted: &[(&str, String)],
+) -> std::collections::HashMap<String, serde_json::Value> {
+    let mut found = std::collections::HashMap::new();
     tokio::time::timeout(DEADLINE, async {
-        loop {
+        while found.len() < wanted.len() {
             let p = observer.next_publish().await;
-            if p.topic != topic {
-                continue;
-            }
-            let v: serde_json::Value = serde_json::from_slice(&p.payload).unwrap();
-            if v["time"] == time {
-                return v;
+            for (tank, time) in wanted {
+                if p.topic == site.state_topic(tank) {
+                    let v: serde_json::Value = serde_json::from_slice(&p.payload).unwrap();
+                    if v["time"] == *time {
+                        found.insert(tank.to_string(), v);
+                    }
+                }
             }
         }
     })
     .await
-    .unwrap_or_else(|_| panic!("no state of {tank} at {time}"))
+    .unwrap_or_else(|_| panic!("states seen {:?} of {wanted:?}", found.keys().collect::<Vec<_>>()));
+    found
 }
 
 fn check_state_json(state: &serde_json::Value, tank: &str, c_ms_cm: f64, t_c: f64) {
@@ -174,19 +180,29 @@ async fn three_payload_formats_are_stored_derived_and_published() {
         check_rows(&site, NUMBER_TANK, "mS/cm", &number_inputs);
 
         // Retained state of each tank after its last reading.
-        let last_json = json_inputs[4];
-        let state = wait_for_state(&mut observer, &site, JSON_TANK, &rfc3339(past_time(5000))).await;
-        check_state_json(&state, JSON_TANK, last_json.1, last_json.2);
-        let last_senml = senml_inputs[4];
-        let state = wait_for_state(&mut observer, &site, SENML_TANK, &rfc3339(past_time(5000))).await;
-        check_state_json(&state, SENML_TANK, last_senml.1, last_senml.2);
         let number_rows = Reader::open(&site.db)
             .unwrap()
             .history(NUMBER_TANK, None, None)
             .unwrap();
-        let last_number_time = rfc3339(number_rows.last().unwrap().time);
-        let state = wait_for_state(&mut observer, &site, NUMBER_TANK, &last_number_time).await;
-        check_state_json(&state, NUMBER_TANK, number_inputs[3].1, number_inputs[3].2);
+        let wanted = [
+            (JSON_TANK, rfc3339(past_time(5000))),
+            (SENML_TANK, rfc3339(past_time(5000))),
+            (NUMBER_TANK, rfc3339(number_rows.last().unwrap().time)),
+        ];
+        let states = wait_for_states(&mut observer, &site, &wanted).await;
+        check_state_json(&states[JSON_TANK], JSON_TANK, json_inputs[4].1, json_inputs[4].2);
+        check_state_json(
+            &states[SENML_TANK],
+            SENML_TANK,
+            senml_inputs[4].1,
+            senml_inputs[4].2,
+        );
+        check_state_json(
+            &states[NUMBER_TANK],
+            NUMBER_TANK,
+            number_inputs[3].1,
+            number_inputs[3].2,
+        );
         // A client arriving later gets the same state, flagged retained.
         let retained = read_retained(broker.addr(), &site.state_topic(JSON_TANK)).await;
         assert!(retained.retain);
