@@ -1,9 +1,22 @@
 //! After each commit: ack the messages it covers (in order) and publish the tanks' new state.
+//!
+//! Acks never wait for state publishes. A state publish waits for room in the MQTT client's request
+//! channel, and that channel drains only while the client's event loop runs, which in turn waits for the
+//! ingest loop, the writer and so this task: publishing inline here closed that loop, and with many tanks
+//! per commit (one state each) the daemon crawled at one publish timeout per tank. So states go to a
+//! separate task through a map that keeps only the newest state of each tank.
+//!
+//! States are published retained at QoS 0: a QoS 1 publish takes one of the client's few outgoing
+//! in-flight slots until the broker's PUBACK, and once they are all taken the client holds every later
+//! request, the acks of received readings included, so the broker stops delivering; at QoS 0 nothing
+//! waits. A state lost with a dropped connection is replaced by the tank's next reading (the retained
+//! `online`/`offline` availability stays QoS 1).
 use std::collections::HashMap;
+use std::sync::{Arc, Mutex};
 use std::time::Duration;
 
 use chrono::{DateTime, Utc};
-use tokio::sync::mpsc;
+use tokio::sync::{mpsc, Notify};
 
 use super::tank_state::{state_topic, TankState};
 use crate::mqtt::{AckOutcome, AckToken, MqttHandle, QoS};
@@ -27,20 +40,62 @@ pub struct AckerSummary {
     pub acks_sent: u64,
     pub acks_stale: u64,
     pub states_published: u64,
+    /// States not published: the client had no room within the timeout, or a newer state replaced them.
     pub states_dropped: u64,
 }
 
 /// A state publish that cannot be queued within this time is dropped (the next reading publishes again).
 const STATE_PUBLISH_TIMEOUT: Duration = Duration::from_secs(1);
 
-/// Runs until the writer's report channel closes; returns the totals.
+/// The newest committed state of each tank not yet handed to the MQTT client.
+#[derive(Default)]
+struct StateQueue {
+    states: Mutex<StateSlots>,
+    notify: Notify,
+}
+
+#[derive(Default)]
+struct StateSlots {
+    newest: HashMap<String, (DateTime<Utc>, TankState)>,
+    replaced: u64,
+    closed: bool,
+}
+
+impl StateQueue {
+    fn lock(&self) -> std::sync::MutexGuard<'_, StateSlots> {
+        self.states.lock().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// Keeps `state` if it is at least as new as the one waiting for its tank.
+    fn offer(&self, time: DateTime<Utc>, state: TankState) {
+        let mut slots = self.lock();
+        let newer = slots.newest.get(&state.tank).is_none_or(|(t, _)| time >= *t);
+        if newer {
+            if slots.newest.insert(state.tank.clone(), (time, state)).is_some() {
+                slots.replaced += 1;
+            }
+        } else {
+            slots.replaced += 1;
+        }
+        drop(slots);
+        self.notify.notify_one();
+    }
+
+    fn close(&self) {
+        self.lock().closed = true;
+        self.notify.notify_one();
+    }
+}
+
+/// Runs until the writer's report channel closes and the last states are published; returns the totals.
 pub async fn run_acker(
     mut reports: mpsc::Receiver<CommitReport<Pending>>,
     mqtt: MqttHandle,
     topic_prefix: String,
 ) -> AckerSummary {
+    let queue = Arc::new(StateQueue::default());
+    let publisher = tokio::spawn(publish_states(queue.clone(), mqtt.clone(), topic_prefix));
     let mut summary = AckerSummary::default();
-    let mut published: HashMap<String, DateTime<Utc>> = HashMap::new();
     while let Some(report) = reports.recv().await {
         summary.commits += 1;
         summary.readings_inserted += report.inserted;
@@ -53,7 +108,6 @@ pub async fn run_acker(
             latency_ms = report.commit_latency.as_secs_f64() * 1e3,
             "committed"
         );
-        let mut newest: HashMap<String, (DateTime<Utc>, TankState)> = HashMap::new();
         for pending in report.acks {
             if let Some(token) = pending.ack {
                 match mqtt.ack(token) {
@@ -62,13 +116,35 @@ pub async fn run_acker(
                 }
             }
             if let Some((time, state)) = pending.state {
-                let newer = newest.get(&state.tank).is_none_or(|(t, _)| time >= *t);
-                if newer {
-                    newest.insert(state.tank.clone(), (time, state));
-                }
+                queue.offer(time, state);
             }
         }
-        for (tank, (time, state)) in newest {
+    }
+    queue.close();
+    let (published, dropped) = publisher.await.unwrap_or_default();
+    summary.states_published = published;
+    summary.states_dropped = dropped + queue.lock().replaced;
+    summary
+}
+
+/// Publishes queued states (retained, QoS 0) until the queue is closed and empty; returns
+/// (published, dropped).
+async fn publish_states(queue: Arc<StateQueue>, mqtt: MqttHandle, topic_prefix: String) -> (u64, u64) {
+    let (mut published_count, mut dropped) = (0u64, 0u64);
+    let mut published: HashMap<String, DateTime<Utc>> = HashMap::new();
+    loop {
+        let (batch, closed) = {
+            let mut slots = queue.lock();
+            (std::mem::take(&mut slots.newest), slots.closed)
+        };
+        if batch.is_empty() {
+            if closed {
+                return (published_count, dropped);
+            }
+            queue.notify.notified().await;
+            continue;
+        }
+        for (tank, (time, state)) in batch {
             if published.get(&tank).is_some_and(|t| *t > time) {
                 continue;
             }
@@ -76,19 +152,18 @@ pub async fn run_acker(
                 continue;
             };
             let topic = state_topic(&topic_prefix, &tank);
-            let publish = mqtt.publish(&topic, json, true, QoS::AtLeastOnce);
+            let publish = mqtt.publish(&topic, json, true, QoS::AtMostOnce);
             match tokio::time::timeout(STATE_PUBLISH_TIMEOUT, publish).await {
                 Ok(Ok(())) => {
-                    summary.states_published += 1;
+                    published_count += 1;
                     published.insert(tank, time);
                 }
                 Ok(Err(err)) => {
-                    summary.states_dropped += 1;
+                    dropped += 1;
                     tracing::debug!(%topic, error = %err, "state not published");
                 }
-                Err(_) => summary.states_dropped += 1,
+                Err(_) => dropped += 1,
             }
         }
     }
-    summary
 }

@@ -19,5 +19,6 @@ pub use retention::{RetentionReport, RetentionSettings};
 pub use rows::{DaemonStateRow, HourlyRow, HourlyStats, ReadingRow, RejectionRow, PAYLOAD_PREFIX_MAX_BYTES};
 pub use schema::SCHEMA_VERSION;
 pub use writer::{
-    spawn_writer, CommitReport, WriteItem, WriterHandle, WriterJoinHandle, WriterSettings, WriterSummary,
+    spawn_writer, CommitReport, SpawnedWriter, WriteItem, WriterHandle, WriterJoinHandle, WriterSettings,
+    WriterSummary,
 };

@@ -33,9 +33,11 @@ pub fn from_unix_seconds(seconds: f64) -> Result<DateTime<Utc>, PayloadError> {
             format!("time {seconds} s is beyond the year 9999{hint}"),
         ));
     }
-    let whole = seconds.floor();
-    let nanos = ((seconds - whole) * 1e9).round().min(999_999_999.0) as u32;
-    DateTime::from_timestamp(whole as i64, nanos)
+    // Rounded to whole microseconds: a decimal such as 1743573600.123 has no exact binary form (the f64 is
+    // 1743573600.12299990...), and keeping its nanoseconds would put it in millisecond .122 when stored.
+    // At present-day times an f64 resolves about 0.24 µs, so the nearest microsecond is the one written.
+    let micros = (seconds * 1e6).round() as i64;
+    DateTime::from_timestamp_micros(micros)
         .ok_or_else(|| PayloadError::new(RejectReason::BadTime, format!("time {seconds} is out of range")))
 }
 
@@ -107,6 +109,18 @@ mod tests {
         }
         // RFC 3339 §5.6 allows a lower-case `t` and `z`.
         assert!(from_rfc3339("2025-04-02t06:00:00z").is_ok());
+    }
+
+    #[test]
+    fn unix_seconds_with_milliseconds_keep_their_millisecond() {
+        // Every millisecond of a present-day second, written as decimal Unix seconds, stays in that
+        // millisecond (the stored resolution); 1 ms apart never collapses into one.
+        for ms in 0..1000 {
+            let text = format!("1743573600.{ms:03}");
+            let t = from_unix_seconds(text.parse().unwrap()).unwrap();
+            assert_eq!(t.timestamp(), 1_743_573_600, "{text}");
+            assert_eq!(t.timestamp_subsec_millis(), ms, "{text}");
+        }
     }
 
     #[test]
