@@ -32,7 +32,11 @@ impl RetryPolicy {
         let initial_ms = u64::try_from(self.initial.as_millis()).unwrap_or(u64::MAX);
         let max_ms = u64::try_from(self.max.as_millis()).unwrap_or(u64::MAX);
         let capped_ms = initial_ms.saturating_mul(factor).min(max_ms);
-        let unit = if unit.is_finite() { unit.clamp(0.0, 1.0) } else { 0.0 };
+        let unit = if unit.is_finite() {
+            unit.clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
         let capped = Duration::from_millis(capped_ms);
         capped / 2 + capped.mul_f64(0.5 * unit)
     }
@@ -47,7 +51,10 @@ mod tests {
         let policy = RetryPolicy::from_ms(10, 500, 60_000);
         // With the draw at 1 the wait is the full capped value.
         let full: Vec<u64> = (1..=9).map(|r| policy.delay(r, 1.0).as_millis() as u64).collect();
-        assert_eq!(full, [500, 1000, 2000, 4000, 8000, 16_000, 32_000, 60_000, 60_000]);
+        assert_eq!(
+            full,
+            [500, 1000, 2000, 4000, 8000, 16_000, 32_000, 60_000, 60_000]
+        );
         assert_eq!(policy.delay(1000, 1.0), Duration::from_secs(60));
     }
 

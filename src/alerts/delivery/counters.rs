@@ -37,9 +37,11 @@ pub struct DeliveryCounters {
     pub dropped: u64,
 }
 
-impl DeliveryCounters {
+impl std::ops::Add for DeliveryCounters {
+    type Output = Self;
+
     /// Field-by-field sum.
-    pub fn add(self, other: Self) -> Self {
+    fn add(self, other: Self) -> Self {
         Self {
             delivered: self.delivered + other.delivered,
             retried: self.retried + other.retried,

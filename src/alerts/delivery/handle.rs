@@ -46,7 +46,9 @@ struct Route {
 
 impl fmt::Debug for DeliveryHandle {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.debug_struct("DeliveryHandle").field("channels", &self.channels()).finish()
+        f.debug_struct("DeliveryHandle")
+            .field("channels", &self.channels())
+            .finish()
     }
 }
 
@@ -83,7 +85,12 @@ pub fn spawn_delivery_with_secrets(
         tasks.push((kind, task));
     };
     if let Some((webhook, channel)) = webhook {
-        start(ChannelKind::Webhook, webhook.min_severity, Either::Webhook(channel), webhook.retry_policy());
+        start(
+            ChannelKind::Webhook,
+            webhook.min_severity,
+            Either::Webhook(channel),
+            webhook.retry_policy(),
+        );
     }
     if let Some(exec) = &settings.exec {
         let channel = Either::Exec(ExecChannel::new(exec));
@@ -98,7 +105,9 @@ pub fn spawn_delivery_with_secrets(
         }
         // Nobody may be waiting; that is fine.
         let _ = finished_tx.send(true);
-        all_counters.iter().fold(DeliveryCounters::default(), |sum, c| sum.add(c.snapshot()))
+        all_counters
+            .iter()
+            .fold(DeliveryCounters::default(), |sum, c| sum + c.snapshot())
     });
     let handle = DeliveryHandle {
         inner: Arc::new(Inner {
@@ -159,7 +168,12 @@ impl DeliveryHandle {
     /// channel, counted and logged; the alert record itself is the daemon's to persist.
     pub fn submit(&self, event: &AlertEvent) -> usize {
         let severity = event.severity();
-        let wanted: Vec<&Route> = self.inner.routes.iter().filter(|r| severity >= r.min_severity).collect();
+        let wanted: Vec<&Route> = self
+            .inner
+            .routes
+            .iter()
+            .filter(|r| severity >= r.min_severity)
+            .collect();
         if wanted.is_empty() {
             return 0;
         }
@@ -179,21 +193,33 @@ impl DeliveryHandle {
             let channel = route.kind.as_str();
             if closing {
                 route.counters.dropped();
-                tracing::warn!(channel, alert_id = payload.id.0, event = payload.event,
-                    "alert delivery is shut down; event not delivered on this channel");
+                tracing::warn!(
+                    channel,
+                    alert_id = payload.id.0,
+                    event = payload.event,
+                    "alert delivery is shut down; event not delivered on this channel"
+                );
                 continue;
             }
             match route.queue.try_send(Arc::clone(&payload)) {
                 Ok(()) => queued += 1,
                 Err(TrySendError::Full(_)) => {
                     route.counters.dropped();
-                    tracing::warn!(channel, alert_id = payload.id.0, event = payload.event,
-                        "alert delivery queue full; event dropped from delivery (the alert record is kept)");
+                    tracing::warn!(
+                        channel,
+                        alert_id = payload.id.0,
+                        event = payload.event,
+                        "alert delivery queue full; event dropped from delivery (the alert record is kept)"
+                    );
                 }
                 Err(TrySendError::Closed(_)) => {
                     route.counters.dropped();
-                    tracing::warn!(channel, alert_id = payload.id.0, event = payload.event,
-                        "alert delivery task has stopped; event not delivered on this channel");
+                    tracing::warn!(
+                        channel,
+                        alert_id = payload.id.0,
+                        event = payload.event,
+                        "alert delivery task has stopped; event not delivered on this channel"
+                    );
                 }
             }
         }
@@ -207,12 +233,19 @@ impl DeliveryHandle {
 
     /// Counters summed over the channels.
     pub fn counters(&self) -> DeliveryCounters {
-        self.inner.routes.iter().fold(DeliveryCounters::default(), |sum, r| sum.add(r.counters.snapshot()))
+        self.inner
+            .routes
+            .iter()
+            .fold(DeliveryCounters::default(), |sum, r| sum + r.counters.snapshot())
     }
 
     /// One channel's counters, if it is configured.
     pub fn channel_counters(&self, kind: ChannelKind) -> Option<DeliveryCounters> {
-        self.inner.routes.iter().find(|r| r.kind == kind).map(|r| r.counters.snapshot())
+        self.inner
+            .routes
+            .iter()
+            .find(|r| r.kind == kind)
+            .map(|r| r.counters.snapshot())
     }
 
     /// Refuses further events, lets each channel deliver what is queued (with retries) for up to
@@ -230,7 +263,10 @@ impl DeliveryHandle {
         });
         let wait_until = (*self.inner.shutdown.borrow()).unwrap_or(deadline) + SHUTDOWN_GRACE;
         let mut finished = self.inner.finished.clone();
-        if tokio::time::timeout_at(wait_until, finished.wait_for(|done| *done)).await.is_err() {
+        if tokio::time::timeout_at(wait_until, finished.wait_for(|done| *done))
+            .await
+            .is_err()
+        {
             tracing::warn!("alert delivery tasks did not stop by the shutdown deadline");
         }
         self.counters()

@@ -167,7 +167,9 @@ fn check_url(url: &str) -> Result<(), DeliverySettingsError> {
         url: url.to_string(),
         reason: reason.to_string(),
     };
-    let uri: ureq::http::Uri = url.parse().map_err(|e: ureq::http::uri::InvalidUri| bad(&e.to_string()))?;
+    let uri: ureq::http::Uri = url
+        .parse()
+        .map_err(|e: ureq::http::uri::InvalidUri| bad(&e.to_string()))?;
     match uri.scheme_str() {
         Some("http") | Some("https") => {}
         _ => return Err(bad("the scheme must be http or https")),
@@ -246,8 +248,14 @@ mod tests {
         let webhook = settings.webhook.unwrap();
         assert_eq!(webhook.timeout_s, 5.0);
         assert_eq!(webhook.retries, 5);
-        assert_eq!((webhook.backoff_initial_ms, webhook.backoff_max_ms), (500, 60_000));
-        assert_eq!(webhook.headers.get("X-Site").map(String::as_str), Some("north-shed"));
+        assert_eq!(
+            (webhook.backoff_initial_ms, webhook.backoff_max_ms),
+            (500, 60_000)
+        );
+        assert_eq!(
+            webhook.headers.get("X-Site").map(String::as_str),
+            Some("north-shed")
+        );
         assert_eq!(webhook.bearer_token_env, None);
         let exec = settings.exec.unwrap();
         assert_eq!(exec.timeout_s, 10.0);
@@ -275,33 +283,51 @@ mod tests {
         };
         for url in ["ftp://host/x", "not a url", "/relative/path"] {
             let err = with_webhook(WebhookSettings::new(url)).validate().unwrap_err();
-            assert!(matches!(err, DeliverySettingsError::WebhookUrl { .. }), "{url}: {err}");
+            assert!(
+                matches!(err, DeliverySettingsError::WebhookUrl { .. }),
+                "{url}: {err}"
+            );
         }
         let mut webhook = WebhookSettings::new("http://127.0.0.1:8080/hook");
         webhook.timeout_s = 0.0;
         assert!(matches!(
             with_webhook(webhook).validate(),
-            Err(DeliverySettingsError::Timeout { channel: "webhook", .. })
+            Err(DeliverySettingsError::Timeout {
+                channel: "webhook",
+                ..
+            })
         ));
         let mut webhook = WebhookSettings::new("http://127.0.0.1:8080/hook");
         webhook.headers.insert("Bad Name".into(), "x".into());
-        assert!(matches!(with_webhook(webhook).validate(), Err(DeliverySettingsError::Header { .. })));
+        assert!(matches!(
+            with_webhook(webhook).validate(),
+            Err(DeliverySettingsError::Header { .. })
+        ));
         let exec = DeliverySettings {
             exec: Some(ExecSettings::new("")),
             ..DeliverySettings::default()
         };
-        assert!(matches!(exec.validate(), Err(DeliverySettingsError::EmptyProgram)));
+        assert!(matches!(
+            exec.validate(),
+            Err(DeliverySettingsError::EmptyProgram)
+        ));
         let mut exec = ExecSettings::new("/bin/true");
         exec.timeout_s = f64::NAN;
         let settings = DeliverySettings {
             exec: Some(exec),
             ..DeliverySettings::default()
         };
-        assert!(matches!(settings.validate(), Err(DeliverySettingsError::Timeout { channel: "exec", .. })));
+        assert!(matches!(
+            settings.validate(),
+            Err(DeliverySettingsError::Timeout { channel: "exec", .. })
+        ));
         let settings = DeliverySettings {
             queue_capacity: 0,
             ..DeliverySettings::default()
         };
-        assert!(matches!(settings.validate(), Err(DeliverySettingsError::QueueCapacity)));
+        assert!(matches!(
+            settings.validate(),
+            Err(DeliverySettingsError::QueueCapacity)
+        ));
     }
 }

@@ -42,9 +42,9 @@ impl WebhookChannel {
         let bearer = match &settings.bearer_token_env {
             None => None,
             Some(var) => {
-                let token = secret(var).filter(|t| !t.trim().is_empty()).ok_or_else(|| {
-                    DeliverySettingsError::TokenMissing { var: var.clone() }
-                })?;
+                let token = secret(var)
+                    .filter(|t| !t.trim().is_empty())
+                    .ok_or_else(|| DeliverySettingsError::TokenMissing { var: var.clone() })?;
                 let token = token.trim().to_string();
                 ureq::http::HeaderValue::from_str(&format!("Bearer {token}")).map_err(|e| {
                     DeliverySettingsError::Header {
@@ -67,7 +67,11 @@ impl WebhookChannel {
         Ok(Self {
             agent,
             url: Arc::from(settings.url.as_str()),
-            headers: settings.headers.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
+            headers: settings
+                .headers
+                .iter()
+                .map(|(k, v)| (k.clone(), v.clone()))
+                .collect(),
             bearer,
             timeout,
         })

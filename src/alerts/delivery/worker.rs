@@ -133,7 +133,10 @@ impl<C: Channel> Delivery<'_, C> {
                 self.abandoned(&payload);
                 continue;
             }
-            if tokio::time::timeout_at(deadline, self.deliver(&payload)).await.is_err() {
+            if tokio::time::timeout_at(deadline, self.deliver(&payload))
+                .await
+                .is_err()
+            {
                 self.abandoned(&payload);
             }
         }
