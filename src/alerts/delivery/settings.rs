@@ -55,7 +55,7 @@ pub struct WebhookSettings {
     /// Cap on the backoff, milliseconds.
     #[serde(default = "default_backoff_max_ms")]
     pub backoff_max_ms: u64,
-    /// Extra request headers.
+    /// Extra request headers (a `Content-Type` here replaces `application/json`).
     #[serde(default)]
     pub headers: BTreeMap<String, String>,
     /// Name of an environment variable holding a bearer token (sent as `Authorization: Bearer ...`).

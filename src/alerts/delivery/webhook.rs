@@ -87,7 +87,14 @@ impl Channel for WebhookChannel {
         let payload = Arc::clone(payload);
         let timeout = self.timeout;
         let post = move || -> Result<(), AttemptError> {
-            let mut request = agent.post(&*url).header("Content-Type", "application/json");
+            let mut request = agent.post(&*url);
+            // A configured Content-Type replaces the default rather than adding a second one.
+            if !headers
+                .iter()
+                .any(|(name, _)| name.eq_ignore_ascii_case("content-type"))
+            {
+                request = request.header("Content-Type", "application/json");
+            }
             for (name, value) in headers.iter() {
                 request = request.header(name.as_str(), value.as_str());
             }
