@@ -13,6 +13,7 @@
 //! Alerts are an aid to staff: species limits are indicative, probes must be checked against a calibrated
 //! meter, and halotank does not replace a tank's own life-support alarm.
 pub mod defaults;
+pub mod delivery;
 pub mod detector;
 pub mod engine;
 pub mod event;
