@@ -16,7 +16,7 @@ pub mod state;
 
 pub use error::ScheduleError;
 pub use plan_copy::SchedulePlan;
-pub use progress::{progress, NextStep, Progress};
+pub use progress::{progress, timeline, NextStep, Progress};
 pub use schedule::Schedule;
 pub use state::{ScheduleState, StepDone};
 
