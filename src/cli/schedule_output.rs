@@ -68,7 +68,7 @@ pub fn write_progress(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) ->
     let p = progress(s, now);
     writeln!(
         out,
-        "progress at {} UTC: {} steps of {} done ({}), state {}",
+        "progress at {} UTC: {} of {} steps done ({}), state {}",
         minute(now),
         p.steps_done,
         p.steps_total,
@@ -84,7 +84,7 @@ pub fn write_progress(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) ->
         let action = s.plan.steps.get(next.step - 1).map(step_action).unwrap_or_default();
         writeln!(out, "next: step {} {when} {} UTC: {action}", next.step, minute(next.due))?;
     }
-    if p.paused_h > 0.0 || p.late_h > 0.0 {
+    if p.paused_h >= 0.01 || p.late_h >= 0.01 {
         writeln!(out, "timeline moved {:.2} h by pauses and {:.2} h by lateness", p.paused_h, p.late_h)?;
     }
     if let Some(finish) = p.expected_finish {
