@@ -52,7 +52,8 @@ fn the_migration_creates_version_2_and_schedules_round_trip() {
     assert_eq!(inserted.state, ScheduleState::Active);
     assert_eq!(inserted.plan, plan);
     assert_eq!(store.get(inserted.id).unwrap(), inserted);
-    let stored_request: PlanRequest = serde_json::from_str(&store.request_json(inserted.id).unwrap()).unwrap();
+    let stored_request: PlanRequest =
+        serde_json::from_str(&store.request_json(inserted.id).unwrap()).unwrap();
     assert_eq!(stored_request, request());
     let conn = open_for_writing(&db.path, std::time::Duration::from_secs(1)).unwrap();
     assert_eq!(user_version(&conn).unwrap(), 2);
@@ -74,7 +75,9 @@ fn one_open_schedule_per_tank() {
     store.insert("smolt-b3", t0(), &plan(), &request()).unwrap();
     // Once aborted, the tank can take a new schedule.
     store.abort(first.id, t0() + Duration::minutes(10)).unwrap();
-    let second = store.insert("smolt-b2", t0() + Duration::minutes(11), &plan(), &request()).unwrap();
+    let second = store
+        .insert("smolt-b2", t0() + Duration::minutes(11), &plan(), &request())
+        .unwrap();
     assert_ne!(second.id, first.id);
     assert_eq!(store.list(Some("smolt-b2")).unwrap().len(), 2);
     assert_eq!(store.list(None).unwrap().len(), 3);
@@ -96,31 +99,57 @@ fn restart_continues_from_the_right_step_and_never_repeats_one() {
         let mut store = ScheduleStore::open(&db.path).unwrap();
         let s = store.insert("smolt-b2", t0(), &plan(), &request()).unwrap();
         store.mark_step_done(s.id, None, t0(), "ines").unwrap();
-        store.mark_step_done(s.id, Some(2), t0() + Duration::hours(1), "ines").unwrap();
+        store
+            .mark_step_done(s.id, Some(2), t0() + Duration::hours(1), "ines")
+            .unwrap();
         s.id
     }; // connection dropped: the "restart"
     let mut reopened = ScheduleStore::open(&db.path).unwrap();
     let s = reopened.get(id).unwrap();
-    assert_eq!(s.steps_done.iter().map(|d| d.step).collect::<Vec<_>>(), vec![1, 2]);
+    assert_eq!(
+        s.steps_done.iter().map(|d| d.step).collect::<Vec<_>>(),
+        vec![1, 2]
+    );
     let p = progress(&s, t0() + Duration::minutes(90));
     assert_eq!((p.steps_done, p.steps_due, p.steps_ahead), (2, 2, 0));
     assert!((p.setpoint_practical_salinity - s.plan.steps[1].setpoint_practical_salinity).abs() < 1e-12);
     assert_eq!(p.next_step.as_ref().unwrap().step, 3);
     // Repeating a done step, from the new connection, is refused and changes nothing.
-    let err = reopened.mark_step_done(id, Some(2), t0() + Duration::hours(2), "ines").unwrap_err();
-    assert!(matches!(err, ScheduleStoreError::Refused(ScheduleError::StepAlreadyDone { step: 2, .. })));
-    let err = reopened.mark_step_done(id, Some(4), t0() + Duration::hours(2), "ines").unwrap_err();
-    assert!(matches!(err, ScheduleStoreError::Refused(ScheduleError::StepOutOfOrder { step: 4, next: 3, .. })));
+    let err = reopened
+        .mark_step_done(id, Some(2), t0() + Duration::hours(2), "ines")
+        .unwrap_err();
+    assert!(matches!(
+        err,
+        ScheduleStoreError::Refused(ScheduleError::StepAlreadyDone { step: 2, .. })
+    ));
+    let err = reopened
+        .mark_step_done(id, Some(4), t0() + Duration::hours(2), "ines")
+        .unwrap_err();
+    assert!(matches!(
+        err,
+        ScheduleStoreError::Refused(ScheduleError::StepOutOfOrder { step: 4, next: 3, .. })
+    ));
     assert_eq!(reopened.get(id).unwrap(), s);
     // Two connections at once (CLI and daemon): a step marked through one is seen by the other, and the
     // other cannot mark it again.
     let mut other = ScheduleStore::open(&db.path).unwrap();
-    let (_, step) = reopened.mark_step_done(id, None, t0() + Duration::hours(2), "ines").unwrap();
+    let (_, step) = reopened
+        .mark_step_done(id, None, t0() + Duration::hours(2), "ines")
+        .unwrap();
     assert_eq!(step, 3);
-    assert!(other.mark_step_done(id, Some(3), t0() + Duration::hours(2), "jon").is_err());
-    let (after, step) = other.mark_step_done(id, None, t0() + Duration::hours(3), "jon").unwrap();
+    assert!(other
+        .mark_step_done(id, Some(3), t0() + Duration::hours(2), "jon")
+        .is_err());
+    let (after, step) = other
+        .mark_step_done(id, None, t0() + Duration::hours(3), "jon")
+        .unwrap();
     assert_eq!(step, 4);
-    assert_eq!(after.state, ScheduleState::Completed { at: t0() + Duration::hours(3) });
+    assert_eq!(
+        after.state,
+        ScheduleState::Completed {
+            at: t0() + Duration::hours(3)
+        }
+    );
     assert_eq!(reopened.get(id).unwrap(), after);
 }
 

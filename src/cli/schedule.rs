@@ -166,7 +166,12 @@ fn latest_salinity(db: &Path, tank: &str) -> anyhow::Result<f64> {
         .iter()
         .find(|r| r.tank_id == tank)
         .map(|r| r.derived.practical_salinity)
-        .with_context(|| format!("tank {tank} has no stored reading in {}; give --from", db.display()))
+        .with_context(|| {
+            format!(
+                "tank {tank} has no stored reading in {}; give --from",
+                db.display()
+            )
+        })
 }
 
 /// The tank's volume from the configuration file.
@@ -198,7 +203,11 @@ fn start(args: &StartArgs, out: &mut impl Write) -> anyhow::Result<()> {
     let schedule = store.insert(&args.tank, now, &SchedulePlan::from(&plan), &request)?;
     match args.format {
         ScheduleFormat::Text => {
-            writeln!(out, "started schedule {} on tank {}", schedule.id, schedule.tank_id)?;
+            writeln!(
+                out,
+                "started schedule {} on tank {}",
+                schedule.id, schedule.tank_id
+            )?;
             write_show(out, &schedule, now)?;
         }
         ScheduleFormat::Json => write_json(out, &schedule, now)?,
@@ -299,7 +308,12 @@ pub fn run(args: ScheduleArgs) -> anyhow::Result<ExitCode> {
             let now = now();
             let (s, step) = ScheduleStore::open(&a.db.db)?.mark_step_done(a.id, a.step, now, &a.by)?;
             let action = s.plan.steps.get(step - 1).map(step_action).unwrap_or_default();
-            changed(&mut out, &format!("step {step} done by {} ({action})", a.by), &s, now)?;
+            changed(
+                &mut out,
+                &format!("step {step} done by {} ({action})", a.by),
+                &s,
+                now,
+            )?;
         }
     }
     out.flush()?;

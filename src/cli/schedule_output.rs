@@ -57,7 +57,11 @@ pub fn write_summary_line(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>
         s.plan.to_practical_salinity,
         p.steps_done,
         p.steps_total,
-        if s.state.is_open() { ahead_behind(&p) } else { "-".to_owned() },
+        if s.state.is_open() {
+            ahead_behind(&p)
+        } else {
+            "-".to_owned()
+        },
         finish
     )?;
     Ok(())
@@ -81,11 +85,25 @@ pub fn write_progress(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) ->
     writeln!(out, "setpoint now: SP {:.2}{osm}", p.setpoint_practical_salinity)?;
     if let Some(next) = &p.next_step {
         let when = if next.overdue { "overdue since" } else { "due" };
-        let action = s.plan.steps.get(next.step - 1).map(step_action).unwrap_or_default();
-        writeln!(out, "next: step {} {when} {} UTC: {action}", next.step, minute(next.due))?;
+        let action = s
+            .plan
+            .steps
+            .get(next.step - 1)
+            .map(step_action)
+            .unwrap_or_default();
+        writeln!(
+            out,
+            "next: step {} {when} {} UTC: {action}",
+            next.step,
+            minute(next.due)
+        )?;
     }
     if p.paused_h >= 0.01 || p.late_h >= 0.01 {
-        writeln!(out, "timeline moved {:.2} h by pauses and {:.2} h by lateness", p.paused_h, p.late_h)?;
+        writeln!(
+            out,
+            "timeline moved {:.2} h by pauses and {:.2} h by lateness",
+            p.paused_h, p.late_h
+        )?;
     }
     if let Some(finish) = p.expected_finish {
         writeln!(out, "expected finish: {} UTC", minute(finish))?;

@@ -20,7 +20,8 @@ use crate::schedule::{Schedule, ScheduleError, SchedulePlan, ScheduleState, Step
 /// How long a schedule change waits for the daemon's writer to release the database.
 pub const SCHEDULE_BUSY_TIMEOUT: StdDuration = StdDuration::from_secs(10);
 
-const SCHEDULE_COLUMNS: &str = "id, tank_id, created_at_ms, state, state_since_ms, paused_total_ms, plan_json";
+const SCHEDULE_COLUMNS: &str =
+    "id, tank_id, created_at_ms, state, state_since_ms, paused_total_ms, plan_json";
 
 /// A read-write connection for schedules.
 pub struct ScheduleStore {
@@ -93,10 +94,11 @@ fn row_from_sql(row: &rusqlite::Row<'_>) -> rusqlite::Result<ScheduleRow> {
 
 /// Attaches the steps done and parses the plan.
 fn assemble(conn: &Connection, row: ScheduleRow) -> Result<Schedule, ScheduleStoreError> {
-    let plan: SchedulePlan = serde_json::from_str(&row.plan_json).map_err(|source| ScheduleStoreError::Json {
-        what: "stored plan is not readable",
-        source,
-    })?;
+    let plan: SchedulePlan =
+        serde_json::from_str(&row.plan_json).map_err(|source| ScheduleStoreError::Json {
+            what: "stored plan is not readable",
+            source,
+        })?;
     let what = "read a schedule's steps";
     let mut stmt = conn
         .prepare_cached(
@@ -106,7 +108,12 @@ fn assemble(conn: &Connection, row: ScheduleRow) -> Result<Schedule, ScheduleSto
         .map_err(StorageError::sqlite(what))?;
     let raw = stmt
         .query_map(params![row.id], |r| {
-            Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, String>(2)?, r.get::<_, i64>(3)?))
+            Ok((
+                r.get::<_, i64>(0)?,
+                r.get::<_, i64>(1)?,
+                r.get::<_, String>(2)?,
+                r.get::<_, i64>(3)?,
+            ))
         })
         .map_err(StorageError::sqlite(what))?
         .collect::<Result<Vec<_>, _>>()
@@ -183,7 +190,8 @@ impl ScheduleStore {
     ) -> Result<Schedule, ScheduleStoreError> {
         let json = |what, source| ScheduleStoreError::Json { what, source };
         let plan_json = serde_json::to_string(plan).map_err(|e| json("plan cannot be written", e))?;
-        let request_json = serde_json::to_string(request).map_err(|e| json("request cannot be written", e))?;
+        let request_json =
+            serde_json::to_string(request).map_err(|e| json("request cannot be written", e))?;
         let what = "store a schedule";
         let tx = self
             .conn
@@ -224,7 +232,11 @@ impl ScheduleStore {
     /// The stored planning request of a schedule, as JSON.
     pub fn request_json(&self, id: i64) -> Result<String, ScheduleStoreError> {
         self.conn
-            .query_row("SELECT request_json FROM schedules WHERE id = ?1", params![id], |r| r.get(0))
+            .query_row(
+                "SELECT request_json FROM schedules WHERE id = ?1",
+                params![id],
+                |r| r.get(0),
+            )
             .optional()
             .map_err(StorageError::sqlite("read a schedule's request"))?
             .ok_or(ScheduleStoreError::NotFound { id })
@@ -249,7 +261,11 @@ impl ScheduleStore {
 
     /// Every open (active or paused) schedule, one per tank at most; what the daemon follows.
     pub fn open_schedules(&self) -> Result<Vec<Schedule>, ScheduleStoreError> {
-        Ok(self.list(None)?.into_iter().filter(|s| s.state.is_open()).collect())
+        Ok(self
+            .list(None)?
+            .into_iter()
+            .filter(|s| s.state.is_open())
+            .collect())
     }
 
     /// Reads, changes and writes one schedule in one transaction; a refused change writes nothing.
