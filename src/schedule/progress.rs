@@ -15,8 +15,8 @@
 use chrono::{DateTime, Duration, Utc};
 use serde::Serialize;
 
-use super::schedule::Schedule;
 use super::state::ScheduleState;
+use super::transitions::Schedule;
 use crate::planner::water::osmolality_mosm_kg;
 
 /// The next step to do.
