@@ -194,6 +194,10 @@ fn start_without_a_reading_or_volume_says_what_to_give() {
     let mut args = vec!["schedule", "start", "--db", d, "--tank", "parr-a1", "--from", "6"];
     args.extend_from_slice(PLANNING);
     assert!(refused(&args).contains("give --volume"));
+    let missing = db.dir.path().join("missing.db");
+    let m = missing.to_str().unwrap();
+    assert!(refused(&["schedule", "list", "--db", m]).contains("does not exist"));
+    assert!(!missing.exists());
     let help = ok(&["schedule", "start", "--help"]);
     assert!(help.contains("Examples") && help.contains("--source-salinity"));
 }

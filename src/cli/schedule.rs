@@ -48,7 +48,7 @@ pub struct ScheduleArgs {
 /// The database option every schedule subcommand takes.
 #[derive(Debug, Args)]
 pub struct DbArg {
-    /// The halotank database (created if missing).
+    /// The halotank database (`schedule start` creates it if missing).
     #[arg(long, value_name = "PATH")]
     pub db: PathBuf,
 }
@@ -228,7 +228,7 @@ fn write_json(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) -> anyhow:
 
 fn list(args: &ListArgs, out: &mut impl Write) -> anyhow::Result<()> {
     let now = now();
-    let store = ScheduleStore::open(&args.db.db)?;
+    let store = ScheduleStore::open_existing(&args.db.db)?;
     let schedules = store.list(args.tank.as_deref())?;
     match args.format {
         ScheduleFormat::Text => {
@@ -265,7 +265,7 @@ fn list(args: &ListArgs, out: &mut impl Write) -> anyhow::Result<()> {
 
 fn show(args: &ShowArgs, out: &mut impl Write) -> anyhow::Result<()> {
     let at = parse_time_arg(&args.at, now())?;
-    let store = ScheduleStore::open(&args.db.db)?;
+    let store = ScheduleStore::open_existing(&args.db.db)?;
     let schedule = store.get(args.id)?;
     match args.format {
         ScheduleFormat::Text => write_show(out, &schedule, at),
@@ -291,22 +291,23 @@ pub fn run(args: ScheduleArgs) -> anyhow::Result<ExitCode> {
         ScheduleAction::Show(a) => show(a, &mut out)?,
         ScheduleAction::Pause(a) => {
             let now = now();
-            let s = ScheduleStore::open(&a.db.db)?.pause(a.id, now)?;
+            let s = ScheduleStore::open_existing(&a.db.db)?.pause(a.id, now)?;
             changed(&mut out, "paused", &s, now)?;
         }
         ScheduleAction::Resume(a) => {
             let now = now();
-            let s = ScheduleStore::open(&a.db.db)?.resume(a.id, now)?;
+            let s = ScheduleStore::open_existing(&a.db.db)?.resume(a.id, now)?;
             changed(&mut out, "resumed", &s, now)?;
         }
         ScheduleAction::Abort(a) => {
             let now = now();
-            let s = ScheduleStore::open(&a.db.db)?.abort(a.id, now)?;
+            let s = ScheduleStore::open_existing(&a.db.db)?.abort(a.id, now)?;
             changed(&mut out, "aborted", &s, now)?;
         }
         ScheduleAction::StepDone(a) => {
             let now = now();
-            let (s, step) = ScheduleStore::open(&a.db.db)?.mark_step_done(a.id, a.step, now, &a.by)?;
+            let (s, step) =
+                ScheduleStore::open_existing(&a.db.db)?.mark_step_done(a.id, a.step, now, &a.by)?;
             let action = s.plan.steps.get(step - 1).map(step_action).unwrap_or_default();
             changed(
                 &mut out,

@@ -175,6 +175,18 @@ impl ScheduleStore {
         })
     }
 
+    /// Opens an existing database for schedule changes (migrating it if needed); a missing file is an
+    /// error rather than a new empty database.
+    pub fn open_existing(path: &Path) -> Result<Self, ScheduleStoreError> {
+        if !path.exists() {
+            return Err(StorageError::DatabaseMissing {
+                path: path.to_path_buf(),
+            }
+            .into());
+        }
+        Self::open(path)
+    }
+
     /// The database file.
     pub fn path(&self) -> &Path {
         &self.path
@@ -281,6 +293,7 @@ impl ScheduleStore {
             .transaction_with_behavior(TransactionBehavior::Immediate)
             .map_err(StorageError::sqlite(what))?;
         let mut schedule = get_in(&tx, id)?;
+        let (state_before, paused_before) = (schedule.state, schedule.paused_total);
         let done_before = schedule.steps_done.len();
         let out = apply(&mut schedule)?;
         for done in &schedule.steps_done[done_before..] {
@@ -297,16 +310,18 @@ impl ScheduleStore {
             )
             .map_err(StorageError::sqlite("mark a step done"))?;
         }
-        tx.execute(
-            "UPDATE schedules SET state = ?2, state_since_ms = ?3, paused_total_ms = ?4 WHERE id = ?1",
-            params![
-                id,
-                schedule.state.name(),
-                time_to_ms(state_since(schedule.state, now)),
-                schedule.paused_total.num_milliseconds()
-            ],
-        )
-        .map_err(StorageError::sqlite(what))?;
+        if schedule.state != state_before || schedule.paused_total != paused_before {
+            tx.execute(
+                "UPDATE schedules SET state = ?2, state_since_ms = ?3, paused_total_ms = ?4 WHERE id = ?1",
+                params![
+                    id,
+                    schedule.state.name(),
+                    time_to_ms(state_since(schedule.state, now)),
+                    schedule.paused_total.num_milliseconds()
+                ],
+            )
+            .map_err(StorageError::sqlite(what))?;
+        }
         tx.commit().map_err(StorageError::sqlite(what))?;
         Ok((schedule, out))
     }
