@@ -21,7 +21,7 @@ Examples (tanks of the Brannock Sound hatchery):
   # start smolt tank B2 from its latest stored reading to SP 30 by 2-hourly exchanges with SP 34 sea water,
   # volume from the configuration file, limits from the species library
   halotank schedule start --db halotank.db --config halotank.toml --tank smolt-b2 --to 30 \\
-      --temperature 12 --method exchange --source-salinity 34 --interval 2h --species ID
+      --temperature 12 --method exchange --source-salinity 34 --interval 2h --species atlantic_salmon_smolt
   # the same with the start salinity and volume given
   halotank schedule start --db halotank.db --tank smolt-b2 --volume 2000 --from 5 --to 30 \\
       --temperature 12 --source-salinity 34 --interval 2h --max-rate 2/h
