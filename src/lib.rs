@@ -11,6 +11,7 @@
 //! - [`species`]: species profiles with provenance, tonicity and isosmotic salinity.
 //! - [`planner`]: acclimation plans (setpoint ramps and the mass balances of each method).
 //! - [`alerts`]: the alert engine (rules, hysteresis, lifecycle) with an injected clock.
+//! - [`schedule`]: a stored plan being carried out on a tank, its transitions and progress.
 //!
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
@@ -25,6 +26,7 @@ pub mod demo;
 pub mod ingest;
 pub mod mqtt;
 pub mod planner;
+pub mod schedule;
 pub mod seawater;
 pub mod species;
 pub mod storage;

@@ -14,6 +14,8 @@ pub mod plan_chart;
 pub mod plan_options;
 pub mod plan_output;
 pub mod run;
+pub mod schedule;
+pub mod schedule_output;
 pub mod species;
 pub mod status;
 pub mod time_arg;
@@ -41,6 +43,8 @@ pub enum Command {
     Status(status::StatusArgs),
     /// Plan an acclimation: setpoints over time and what to do at each step (drain, add, flow, salt).
     Plan(Box<plan::PlanArgs>),
+    /// Acclimation schedules: start one on a tank, follow its progress, mark steps done, pause, abort.
+    Schedule(schedule::ScheduleArgs),
     /// Run a self-contained demonstration: embedded broker, simulated probes, daemon and live table.
     Demo(demo::DemoArgs),
     /// Species profiles (list, show) and the isosmotic salinity of a species.
@@ -59,6 +63,7 @@ pub fn main() -> ExitCode {
         Command::Demo(args) => demo::run(args),
         Command::Species(args) => species::run(args),
         Command::Plan(args) => plan::run(*args),
+        Command::Schedule(args) => schedule::run(args),
     };
     match result {
         Ok(code) => code,

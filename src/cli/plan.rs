@@ -54,6 +54,29 @@ pub struct PlanArgs {
     /// The tank's practical salinity now.
     #[arg(long, required_unless_present = "batch_volume")]
     pub from: Option<f64>,
+    #[command(flatten)]
+    pub planning: PlanningOptions,
+    /// Practical salinity of source A (blend).
+    #[arg(long, requires = "source_b")]
+    pub source_a: Option<f64>,
+    /// Practical salinity of source B (blend).
+    #[arg(long, requires = "source_a")]
+    pub source_b: Option<f64>,
+    /// Volume of the blended batch, litres (blend).
+    #[arg(long)]
+    pub batch_volume: Option<f64>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write an SVG chart of planned salinity and osmolality against time to this file.
+    #[arg(long)]
+    pub chart: Option<PathBuf>,
+}
+
+/// The planning options shared by `halotank plan` and `halotank schedule start` (everything but the tank's
+/// volume and start salinity, the blend batch and the output).
+#[derive(Debug, Args)]
+pub struct PlanningOptions {
     /// Target practical salinity (for --method blend: the batch's salinity).
     #[arg(long)]
     pub to: f64,
@@ -78,15 +101,6 @@ pub struct PlanArgs {
     /// Litres of top-up water per kilogram of salt (salt; 0 puts the dry salt straight in).
     #[arg(long, default_value_t = DEFAULT_DISSOLVE_WATER_L_PER_KG)]
     pub dissolve_water: f64,
-    /// Practical salinity of source A (blend).
-    #[arg(long, requires = "source_b")]
-    pub source_a: Option<f64>,
-    /// Practical salinity of source B (blend).
-    #[arg(long, requires = "source_a")]
-    pub source_b: Option<f64>,
-    /// Volume of the blended batch, litres (blend).
-    #[arg(long)]
-    pub batch_volume: Option<f64>,
     /// Ramp shape.
     #[arg(long, value_enum, default_value_t = ShapeArg::Linear)]
     pub shape: ShapeArg,
@@ -119,12 +133,6 @@ pub struct PlanArgs {
     /// When the first step is due: RFC 3339 time or `now`.
     #[arg(long, default_value = "now")]
     pub start: String,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-    pub format: FormatArg,
-    /// Write an SVG chart of planned salinity and osmolality against time to this file.
-    #[arg(long)]
-    pub chart: Option<PathBuf>,
 }
 
 /// `--method` values.
@@ -184,7 +192,7 @@ fn split_rates(option: &str, rates: &[RateArg]) -> anyhow::Result<(Option<f64>, 
 }
 
 /// The shape and its rate; the rate's unit must match the shape.
-fn ramp(args: &PlanArgs) -> anyhow::Result<Ramp> {
+fn ramp(args: &PlanningOptions) -> anyhow::Result<Ramp> {
     let shape = match args.shape {
         ShapeArg::Linear => RampShape::LinearSalinity,
         ShapeArg::Proportional => RampShape::Proportional,
@@ -202,7 +210,7 @@ fn ramp(args: &PlanArgs) -> anyhow::Result<Ramp> {
     Ok(Ramp { shape, rate })
 }
 
-fn salinity_limits(args: &PlanArgs) -> Option<SalinityLimits> {
+fn salinity_limits(args: &PlanningOptions) -> Option<SalinityLimits> {
     match (args.optimum, args.tolerance) {
         (None, None) => None,
         (Some(o), Some(t)) => Some(SalinityLimits {
@@ -228,6 +236,17 @@ fn required(value: Option<f64>, option: &str, method: &str) -> anyhow::Result<f6
 
 /// Builds the planner's request from the options.
 pub fn plan_request(args: &PlanArgs, now: DateTime<Utc>) -> anyhow::Result<PlanRequest> {
+    planning_request(&args.planning, args.volume, args.from, now)
+}
+
+/// Builds the planner's request from the shared planning options, the tank's volume and its salinity now
+/// (both required; the messages name `--volume` and `--from`).
+pub fn planning_request(
+    args: &PlanningOptions,
+    volume_l: Option<f64>,
+    from_practical_salinity: Option<f64>,
+    now: DateTime<Utc>,
+) -> anyhow::Result<PlanRequest> {
     let method = match args.method {
         MethodArg::Exchange => Method::Exchange {
             source_practical_salinity: required(args.source_salinity, "--source-salinity", "exchange")?,
@@ -268,8 +287,8 @@ pub fn plan_request(args: &PlanArgs, now: DateTime<Utc>) -> anyhow::Result<PlanR
         }
     };
     Ok(PlanRequest {
-        tank_volume_l: required(args.volume, "--volume", "plans")?,
-        from_practical_salinity: required(args.from, "--from", "plans")?,
+        tank_volume_l: required(volume_l, "--volume", "plans")?,
+        from_practical_salinity: required(from_practical_salinity, "--from", "plans")?,
         to_practical_salinity: args.to,
         temperature_c: args.temperature,
         start: start_time(&args.start, now)?,
@@ -293,16 +312,16 @@ pub fn plan_request(args: &PlanArgs, now: DateTime<Utc>) -> anyhow::Result<PlanR
 pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
     let stdout = io::stdout();
     let mut out = stdout.lock();
-    if args.method == MethodArg::Blend {
+    if args.planning.method == MethodArg::Blend {
         if args.chart.is_some() {
             bail!("--chart draws a plan over time; a blend is a single batch");
         }
         let batch = blend_batch(&BlendRequest {
             batch_volume_l: required(args.batch_volume, "--batch-volume", "blend")?,
-            target_practical_salinity: args.to,
+            target_practical_salinity: args.planning.to,
             source_a_practical_salinity: required(args.source_a, "--source-a", "blend")?,
             source_b_practical_salinity: required(args.source_b, "--source-b", "blend")?,
-            temperature_c: args.temperature,
+            temperature_c: args.planning.temperature,
         })?;
         match args.format {
             FormatArg::Table => write_blend_table(&mut out, &batch)?,

@@ -4,12 +4,15 @@
 //! - [`writer`]: one thread owns the write connection; commits batches and reports the acks they cover.
 //! - [`retention`]: folds old readings into hourly summaries.
 //! - [`queries`]: read-only connections for `history` and `status`.
+//! - [`schedules`]: stored acclimation schedules (their own read-write connection, checked changes).
 pub mod codec;
 pub mod error;
 pub mod insert;
 pub mod queries;
 pub mod retention;
 pub mod rows;
+pub mod schedule_error;
+pub mod schedules;
 pub mod schema;
 pub mod writer;
 
@@ -17,6 +20,8 @@ pub use error::StorageError;
 pub use queries::{Reader, ReasonCount, TankReadingCount};
 pub use retention::{RetentionReport, RetentionSettings};
 pub use rows::{DaemonStateRow, HourlyRow, HourlyStats, ReadingRow, RejectionRow, PAYLOAD_PREFIX_MAX_BYTES};
+pub use schedule_error::ScheduleStoreError;
+pub use schedules::ScheduleStore;
 pub use schema::SCHEMA_VERSION;
 pub use writer::{
     spawn_writer, CommitReport, SpawnedWriter, WriteItem, WriterHandle, WriterJoinHandle, WriterSettings,

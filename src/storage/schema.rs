@@ -20,10 +20,11 @@ pub struct Migration {
 }
 
 /// Every migration, in order. Append only.
-pub const MIGRATIONS: &[Migration] = &[Migration {
-    version: 1,
-    description: "readings, rejections, hourly summaries, daemon state",
-    sql: r#"
+pub const MIGRATIONS: &[Migration] = &[
+    Migration {
+        version: 1,
+        description: "readings, rejections, hourly summaries, daemon state",
+        sql: r#"
 CREATE TABLE readings (
     id                      INTEGER PRIMARY KEY,
     tank_id                 TEXT    NOT NULL,
@@ -91,7 +92,36 @@ CREATE TABLE daemon_state (
     ignored_count       INTEGER NOT NULL
 );
 "#,
-}];
+    },
+    Migration {
+        version: 2,
+        description: "acclimation schedules and the steps marked done",
+        sql: r#"
+CREATE TABLE schedules (
+    id               INTEGER PRIMARY KEY,
+    tank_id          TEXT    NOT NULL,
+    created_at_ms    INTEGER NOT NULL,
+    state            TEXT    NOT NULL CHECK (state IN ('active', 'paused', 'aborted', 'completed')),
+    state_since_ms   INTEGER NOT NULL,
+    paused_total_ms  INTEGER NOT NULL DEFAULT 0,
+    plan_json        TEXT    NOT NULL,
+    request_json     TEXT    NOT NULL
+);
+CREATE INDEX schedules_by_tank ON schedules (tank_id, id);
+-- At most one open (active or paused) schedule per tank, whoever writes.
+CREATE UNIQUE INDEX schedules_one_open_per_tank ON schedules (tank_id) WHERE state IN ('active', 'paused');
+
+CREATE TABLE schedule_steps_done (
+    schedule_id      INTEGER NOT NULL REFERENCES schedules (id),
+    step_index       INTEGER NOT NULL CHECK (step_index >= 1),
+    done_at_ms       INTEGER NOT NULL,
+    by               TEXT    NOT NULL,
+    paused_total_ms  INTEGER NOT NULL DEFAULT 0,
+    UNIQUE (schedule_id, step_index)
+);
+"#,
+    },
+];
 
 /// The schema version this halotank writes and reads.
 pub const SCHEMA_VERSION: u32 = MIGRATIONS[MIGRATIONS.len() - 1].version;
