@@ -37,7 +37,14 @@ fn empty_file_is_migrated_to_the_current_version_with_wal_and_full_sync() {
     assert_eq!(SCHEMA_VERSION, MIGRATIONS.last().unwrap().version);
     assert_eq!(
         tables(&conn),
-        ["daemon_state", "readings", "readings_hourly", "rejections"]
+        [
+            "alert_ack_requests",
+            "alerts",
+            "daemon_state",
+            "readings",
+            "readings_hourly",
+            "rejections"
+        ]
     );
     let mode: String = conn.query_row("PRAGMA journal_mode", [], |r| r.get(0)).unwrap();
     assert_eq!(mode, "wal");

@@ -95,7 +95,7 @@ pub(crate) fn resolve_path(base: &Path, path: &str) -> PathBuf {
 fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
     let root = KeyPath::root();
     let base = origin.parent().unwrap_or(Path::new("")).to_path_buf();
-    let site = raw.site.resolve(&root.key("site"))?;
+    let site = raw.site.resolve(&root.key("site"), &base)?;
     let broker = raw.broker.resolve(&root.key("broker"), &site, &base)?;
     let storage = raw.storage.resolve(&root.key("storage"), &base)?;
     let publish = raw

@@ -1,4 +1,5 @@
-//! One MQTT message in, one storage item out: ingest, derive, and count. No I/O but logging.
+//! One MQTT message in, one storage item out: ingest, derive, assess tonicity against the tank's species,
+//! and count. No I/O but logging.
 use chrono::{DateTime, Utc};
 
 use super::acker::Pending;
@@ -8,10 +9,14 @@ use crate::config::Config;
 use crate::ingest::{AcceptedReading, IngestOutcome, Ingestor, LogDecision, LogLimiter, Rejection};
 use crate::mqtt::AckToken;
 use crate::seawater::derive::derive_from_conductivity;
+use crate::species::{tonicity, SpeciesProfile};
 use crate::storage::{ReadingRow, RejectionRow, WriteItem};
 
 /// Rejection code for a reading the science core refused (outside the equations' range).
 pub const SCIENCE_REFUSED: &str = "outside_science_range";
+
+/// Log-limiter key for a reading whose tonicity the science core refused (the reading is still stored).
+const TONICITY_REFUSED: &str = "tonicity_refused";
 
 /// Seconds between two log lines of the same rejection reason.
 const REJECTION_LOG_INTERVAL_S: i64 = 10;
@@ -21,15 +26,20 @@ const REJECTION_LOG_INTERVAL_S: i64 = 10;
 pub struct MessageHandler {
     ingestor: Ingestor,
     tank_names: Vec<String>,
+    /// Each tank's effective species profile, by tank index (`None`: the tank names no species).
+    profiles: Vec<Option<SpeciesProfile>>,
     counters: Counters,
     log_limit: LogLimiter<&'static str>,
 }
 
 impl MessageHandler {
-    pub fn new(config: &Config) -> Self {
+    /// `profiles[i]` is the effective species profile of `config.tanks[i]` (see
+    /// [`SpeciesLibrary::profile_for_tank`](crate::species::SpeciesLibrary::profile_for_tank)).
+    pub fn new(config: &Config, profiles: Vec<Option<SpeciesProfile>>) -> Self {
         Self {
             ingestor: Ingestor::new(config),
             tank_names: config.tanks.iter().map(|t| t.name.clone()).collect(),
+            profiles,
             counters: Counters::default(),
             log_limit: LogLimiter::new(chrono::Duration::seconds(REJECTION_LOG_INTERVAL_S)),
         }
@@ -94,13 +104,14 @@ impl MessageHandler {
     }
 
     /// Derives every reading of a message; one refusal refuses the message (all or nothing).
-    fn derive_all(&self, readings: &[AcceptedReading]) -> Result<Vec<ReadingRow>, String> {
+    fn derive_all(&mut self, readings: &[AcceptedReading]) -> Result<Vec<ReadingRow>, String> {
         readings
             .iter()
             .map(|r| {
                 let derived =
                     derive_from_conductivity(r.conductivity_ms_cm, r.temperature_c, r.pressure_dbar, 0.0)
                         .map_err(|e| format!("reading at {}: {e}", r.time))?;
+                let tonicity = self.tonicity(r, &derived);
                 Ok(ReadingRow {
                     tank_id: r.tank_id.clone(),
                     time: r.time,
@@ -111,9 +122,31 @@ impl MessageHandler {
                     temperature_c: r.temperature_c,
                     pressure_dbar: r.pressure_dbar,
                     derived,
+                    tonicity,
                 })
             })
             .collect()
+    }
+
+    /// The tonicity of one derived reading for its tank's species; a refusal of the science core keeps the
+    /// reading (without tonicity) and is counted and logged.
+    fn tonicity(
+        &mut self,
+        r: &AcceptedReading,
+        derived: &crate::seawater::Derived,
+    ) -> Option<crate::species::TonicityState> {
+        let profile = self.profiles.get(r.tank_index)?.as_ref()?;
+        match tonicity::assess(derived, r.temperature_c, r.pressure_dbar, profile) {
+            Ok(state) => Some(state),
+            Err(err) => {
+                self.counters.tonicity_refused += 1;
+                if let LogDecision::Emit { suppressed } = self.log_limit.check(&TONICITY_REFUSED, r.time) {
+                    tracing::warn!(tank = %r.tank_id, suppressed, error = %err,
+                        "tonicity not assessed; reading kept without it");
+                }
+                None
+            }
+        }
     }
 
     fn log_rejection(&mut self, code: &'static str, topic: &str, detail: &str, now: DateTime<Utc>) {

@@ -23,6 +23,7 @@ use tokio::sync::watch;
 use crate::config::Config;
 use crate::ingest::subscriptions;
 use crate::mqtt::{ConnectionState, MqttHandle};
+use crate::species::{SpeciesLibrary, SpeciesProfile};
 use crate::storage::{spawn_writer, DaemonStateRow, RetentionSettings, WriteItem, WriterSettings};
 
 use acker::{run_acker, AckerSummary, Pending};
@@ -52,6 +53,7 @@ pub struct RunSummary {
 /// publishes `offline` and returns.
 pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
     let started_at = Utc::now();
+    let profiles = tank_profiles(&config)?;
     let window = usize::from(config.broker.max_inflight).max(1);
     // Acks wait for commits, and the broker sends at most `window` unacked QoS 1 messages: a batch
     // larger than the window would never fill, so flush_rows is capped at it.
@@ -82,7 +84,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         config.publish.topic_prefix.clone(),
     ));
 
-    let mut handler = MessageHandler::new(&config);
+    let mut handler = MessageHandler::new(&config, profiles);
     let mut link = mqtt.connection_state();
     let mut state_tick = tokio::time::interval(STATE_INTERVAL);
     let mut retention_tick = tokio::time::interval(RETENTION_INTERVAL);
@@ -178,6 +180,30 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     };
     tracing::info!(?summary, "halotank daemon stopped");
     Ok(summary)
+}
+
+/// Loads the species library (`[site] species_library`, else the built-in one) and each tank's effective
+/// profile, by tank index. A tank naming an unknown species, or a bad library, refuses the start.
+pub fn tank_profiles(config: &Config) -> anyhow::Result<Vec<Option<SpeciesProfile>>> {
+    let library = match &config.site.species_library {
+        Some(path) => SpeciesLibrary::load(path)
+            .with_context(|| format!("cannot load the species library {}", path.display()))?,
+        None => SpeciesLibrary::embedded().context("the built-in species library is invalid")?,
+    };
+    config
+        .tanks
+        .iter()
+        .map(|tank| {
+            library.profile_for_tank(tank).with_context(|| {
+                format!(
+                    "tank `{}` in {}: species profile not usable (library {})",
+                    tank.id,
+                    config.origin.display(),
+                    library.origin().display()
+                )
+            })
+        })
+        .collect()
 }
 
 fn daemon_state_row(
