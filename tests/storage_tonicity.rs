@@ -44,7 +44,7 @@ fn tonicity_round_trips_through_the_readings_table() {
 
     let reader = Reader::open(&db.path).unwrap();
     let mut latest = reader.latest_per_tank().unwrap();
-    latest.sort_by(|a, b| a.time.cmp(&b.time));
+    latest.sort_by_key(|r| r.time);
     assert_eq!(latest, rows);
     assert!(latest[0].tonicity.as_ref().unwrap().tonicity.is_some());
     assert!(latest[1].tonicity.as_ref().unwrap().tonicity.is_none());

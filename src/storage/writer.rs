@@ -120,7 +120,8 @@ pub type WriterJoinHandle = JoinHandle<Result<WriterSummary, StorageError>>;
 pub type SpawnedWriter<A> = (WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle);
 
 enum Message<A> {
-    Item(WriteItem<A>),
+    /// Boxed: a reading row with its tonicity is far larger than the other messages.
+    Item(Box<WriteItem<A>>),
     Flush(oneshot::Sender<()>),
     Retention {
         now: DateTime<Utc>,
@@ -154,7 +155,7 @@ impl<A: Send + 'static> WriterHandle<A> {
     /// Queues an item, waiting while the queue is full.
     pub async fn send(&self, item: WriteItem<A>) -> Result<(), StorageError> {
         self.queue
-            .send(Message::Item(item))
+            .send(Message::Item(Box::new(item)))
             .await
             .map_err(|_| StorageError::WriterStopped)
     }
@@ -162,7 +163,7 @@ impl<A: Send + 'static> WriterHandle<A> {
     /// Queues an item from synchronous code (not from inside an async runtime).
     pub fn blocking_send(&self, item: WriteItem<A>) -> Result<(), StorageError> {
         self.queue
-            .blocking_send(Message::Item(item))
+            .blocking_send(Message::Item(Box::new(item)))
             .map_err(|_| StorageError::WriterStopped)
     }
 
@@ -373,7 +374,7 @@ impl<A: Send + 'static> Writer<A> {
                     return Ok(self.summary);
                 }
                 Some(Message::Item(item)) => {
-                    self.batch.push(item, Instant::now());
+                    self.batch.push(*item, Instant::now());
                     if self.batch.full(self.settings.flush_rows) {
                         self.commit()?;
                     }
