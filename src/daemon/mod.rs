@@ -8,6 +8,7 @@
 //! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
 //! ignored messages travel through the writer too, so acks leave in the order messages arrived.
 pub mod acker;
+pub mod alert_limits;
 pub mod connection;
 pub mod counters;
 pub mod handler;

@@ -4,6 +4,8 @@
 //! - [`writer`]: one thread owns the write connection; commits batches and reports the acks they cover.
 //! - [`retention`]: folds old readings into hourly summaries.
 //! - [`queries`]: read-only connections for `history` and `status`.
+//! - [`alerts`]: alert records and acknowledgement requests.
+pub mod alerts;
 pub mod codec;
 pub mod error;
 pub mod insert;
@@ -13,6 +15,7 @@ pub mod rows;
 pub mod schema;
 pub mod writer;
 
+pub use alerts::AckRequest;
 pub use error::StorageError;
 pub use queries::{Reader, ReasonCount, TankReadingCount};
 pub use retention::{RetentionReport, RetentionSettings};

@@ -59,6 +59,25 @@ impl Reader {
         })
     }
 
+    /// Alerts, newest first (see [`super::alerts::select_alerts`]).
+    pub fn alerts(
+        &self,
+        open_only: bool,
+        tank: Option<&str>,
+    ) -> Result<Vec<crate::alerts::AlertRecord>, StorageError> {
+        super::alerts::select_alerts(&self.conn, open_only, tank)
+    }
+
+    /// The highest alert id ever stored (0 when none).
+    pub fn max_alert_id(&self) -> Result<u64, StorageError> {
+        super::alerts::max_alert_id(&self.conn)
+    }
+
+    /// Acknowledgement requests not handled yet.
+    pub fn pending_ack_requests(&self) -> Result<Vec<super::AckRequest>, StorageError> {
+        super::alerts::pending_ack_requests(&self.conn)
+    }
+
     /// The database file this reader reads.
     pub fn path(&self) -> &Path {
         &self.path

@@ -19,6 +19,7 @@ use chrono::{DateTime, Utc};
 use rusqlite::{Connection, TransactionBehavior};
 use tokio::sync::{mpsc, oneshot};
 
+use super::alerts::{mark_ack_request_handled, upsert_alert};
 use super::error::StorageError;
 use super::insert::{
     insert_reading, insert_rejection, reading_problem, rejection_for_invalid, upsert_daemon_state,
@@ -26,6 +27,7 @@ use super::insert::{
 use super::retention::{self, RetentionReport, RetentionSettings};
 use super::rows::{DaemonStateRow, ReadingRow, RejectionRow};
 use super::schema::open_for_writing;
+use crate::alerts::AlertRecord;
 
 /// One thing to store. `A` is the caller's opaque ack token, handed back in a [`CommitReport`].
 #[derive(Debug)]
@@ -40,6 +42,14 @@ pub enum WriteItem<A> {
     AckOnly(A),
     /// The daemon's latest state; within one batch only the last is written. Carries no ack.
     DaemonState(DaemonStateRow),
+    /// An alert record after an event (upsert by id, in arrival order). Carries no ack.
+    Alert(AlertRecord),
+    /// An acknowledgement request from the command line has been handled, with its outcome.
+    AckRequestHandled {
+        id: i64,
+        handled_at: DateTime<Utc>,
+        outcome: String,
+    },
 }
 
 /// How the writer batches and retries. Defaults in [`WriterSettings::default`].
@@ -265,6 +275,8 @@ struct Batch<A> {
     readings: Vec<ReadingRow>,
     rejections: Vec<RejectionRow>,
     state: Option<DaemonStateRow>,
+    alerts: Vec<AlertRecord>,
+    handled_requests: Vec<(i64, DateTime<Utc>, String)>,
     acks: Vec<A>,
     invalid_readings: u64,
     oldest: Option<Instant>,
@@ -276,6 +288,8 @@ impl<A> Default for Batch<A> {
             readings: Vec::new(),
             rejections: Vec::new(),
             state: None,
+            alerts: Vec::new(),
+            handled_requests: Vec::new(),
             acks: Vec::new(),
             invalid_readings: 0,
             oldest: None,
@@ -301,6 +315,12 @@ impl<A> Batch<A> {
             }
             WriteItem::AckOnly(ack) => self.acks.push(ack),
             WriteItem::DaemonState(state) => self.state = Some(state),
+            WriteItem::Alert(record) => self.alerts.push(record),
+            WriteItem::AckRequestHandled {
+                id,
+                handled_at,
+                outcome,
+            } => self.handled_requests.push((id, handled_at, outcome)),
         }
     }
 
@@ -317,7 +337,7 @@ impl<A> Batch<A> {
     }
 
     fn rows(&self) -> usize {
-        self.readings.len() + self.rejections.len()
+        self.readings.len() + self.rejections.len() + self.alerts.len() + self.handled_requests.len()
     }
 
     fn full(&self, flush_rows: usize) -> bool {
@@ -484,6 +504,12 @@ fn write_batch<A>(conn: &mut Connection, batch: &Batch<A>) -> rusqlite::Result<T
     }
     if let Some(state) = &batch.state {
         upsert_daemon_state(&tx, state)?;
+    }
+    for record in &batch.alerts {
+        upsert_alert(&tx, record)?;
+    }
+    for (id, handled_at, outcome) in &batch.handled_requests {
+        mark_ack_request_handled(&tx, *id, *handled_at, outcome)?;
     }
     tx.commit()?;
     Ok(counts)
