@@ -3,6 +3,7 @@
 use chrono::{DateTime, Utc};
 
 use super::acker::Pending;
+use super::alerting::Alerting;
 use super::counters::Counters;
 use super::tank_state::TankState;
 use crate::config::Config;
@@ -28,6 +29,9 @@ pub struct MessageHandler {
     tank_names: Vec<String>,
     /// Each tank's effective species profile, by tank index (`None`: the tank names no species).
     profiles: Vec<Option<SpeciesProfile>>,
+    alerting: Alerting,
+    /// Alert events of handled messages, taken by the daemon with [`MessageHandler::take_alert_events`].
+    events: Vec<crate::alerts::AlertEvent>,
     counters: Counters,
     log_limit: LogLimiter<&'static str>,
 }
@@ -35,11 +39,13 @@ pub struct MessageHandler {
 impl MessageHandler {
     /// `profiles[i]` is the effective species profile of `config.tanks[i]` (see
     /// [`SpeciesLibrary::profile_for_tank`](crate::species::SpeciesLibrary::profile_for_tank)).
-    pub fn new(config: &Config, profiles: Vec<Option<SpeciesProfile>>) -> Self {
+    pub fn new(config: &Config, profiles: Vec<Option<SpeciesProfile>>, alerting: Alerting) -> Self {
         Self {
             ingestor: Ingestor::new(config),
             tank_names: config.tanks.iter().map(|t| t.name.clone()).collect(),
             profiles,
+            alerting,
+            events: Vec::new(),
             counters: Counters::default(),
             log_limit: LogLimiter::new(chrono::Duration::seconds(REJECTION_LOG_INTERVAL_S)),
         }
@@ -47,6 +53,16 @@ impl MessageHandler {
 
     pub fn counters(&self) -> &Counters {
         &self.counters
+    }
+
+    /// The alert engine (for clock ticks and acknowledgements).
+    pub fn alerting_mut(&mut self) -> &mut Alerting {
+        &mut self.alerting
+    }
+
+    /// The alert events raised by the messages handled since the last call.
+    pub fn take_alert_events(&mut self) -> Vec<crate::alerts::AlertEvent> {
+        std::mem::take(&mut self.events)
     }
 
     /// The storage item for one message; `ack` is released once that item is committed.
@@ -62,6 +78,9 @@ impl MessageHandler {
                 Ok(rows) => {
                     self.counters.accepted_messages += 1;
                     self.counters.readings += rows.len() as u64;
+                    // The message's arrival time is the engine's clock for the readings it carries.
+                    let events = self.alerting.on_rows(&rows, received_at);
+                    self.events.extend(events);
                     let state = rows.iter().max_by_key(|r| r.time).and_then(|row| {
                         let index = readings.first().map(|r| r.tank_index)?;
                         let name = self.tank_names.get(index)?;
