@@ -80,7 +80,12 @@ async fn publish_summary(mqtt: &MqttHandle, prefix: &str, open: &BTreeMap<AlertI
 }
 
 async fn publish(mqtt: &MqttHandle, topic: &str, payload: Vec<u8>, retain: bool) {
-    match tokio::time::timeout(PUBLISH_TIMEOUT, mqtt.publish(topic, payload, retain, QoS::AtLeastOnce)).await {
+    match tokio::time::timeout(
+        PUBLISH_TIMEOUT,
+        mqtt.publish(topic, payload, retain, QoS::AtLeastOnce),
+    )
+    .await
+    {
         Ok(Ok(())) => {}
         Ok(Err(err)) => tracing::warn!(%topic, error = %err, "alert publish failed"),
         Err(_) => tracing::warn!(%topic, "alert publish timed out"),

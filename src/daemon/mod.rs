@@ -85,7 +85,9 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     // The writer has migrated the schema: read back the open alerts and the highest id.
     let reader = Reader::open(&config.storage.path)
         .with_context(|| format!("cannot read the database {}", config.storage.path.display()))?;
-    let restored = reader.alerts(true, None).context("cannot read the stored alerts")?;
+    let restored = reader
+        .alerts(true, None)
+        .context("cannot read the stored alerts")?;
     let highest_id = reader.max_alert_id().context("cannot read the stored alerts")?;
     let restore_report = alerting.restore(restored, highest_id);
     tracing::info!(?restore_report, highest_id, "open alerts restored");
