@@ -1,0 +1,80 @@
+//! Alert records through the one writer: upsert by id, open/closed filters, highest id, and acknowledgement
+//! requests; a restored engine continues above the stored ids and does not raise a restored alert again.
+mod storage_support;
+
+use chrono::TimeDelta;
+use halotank::alerts::{AlertEngine, AlertId, AlertKind, AlertLimits, AlertRecord, AlertSettings, AlertState};
+use halotank::storage::alerts::{insert_ack_request, pending_ack_requests};
+use halotank::storage::{spawn_writer, Reader, WriteItem, WriterSettings};
+use storage_support::{at, temp_db};
+
+fn record(id: u64, tank: &str, state: AlertState) -> AlertRecord {
+    let t = at(2024, 5, 14, 6, 0, 0);
+    AlertRecord {
+        id: AlertId(id),
+        tank: tank.to_string(),
+        kind: AlertKind::SalinityTolerance,
+        severity: AlertKind::SalinityTolerance.severity(),
+        state,
+        raised_at: t,
+        observed_at: t,
+        last_notified_at: t,
+        notify_count: 1,
+        cleared_at: None,
+        acknowledgement: None,
+        message: format!("test alert {id}"),
+        value: Some(3.2),
+        limit: Some(5.0),
+    }
+}
+
+#[test]
+fn alert_records_round_trip_and_upsert_by_id() {
+    let db = temp_db();
+    let (writer, _reports, join) = spawn_writer::<()>(&db.path, WriterSettings::default()).unwrap();
+    let first = record(7, "smolt-a1", AlertState::Raised);
+    let mut acked = first.clone();
+    acked.acknowledge("Ines", Some("probe checked"), first.raised_at + TimeDelta::minutes(3)).unwrap();
+    let mut closed = record(8, "oyster-c1", AlertState::Raised);
+    closed.condition_cleared(closed.raised_at + TimeDelta::minutes(1));
+    assert_eq!(closed.state, AlertState::ClearedUnacknowledged);
+    closed.acknowledge("Ines", None, closed.raised_at + TimeDelta::minutes(2)).unwrap();
+    assert_eq!(closed.state, AlertState::Cleared);
+    for r in [first.clone(), acked.clone(), closed.clone()] {
+        writer.blocking_send(WriteItem::Alert(r)).unwrap();
+    }
+    writer.blocking_flush().unwrap();
+
+    let reader = Reader::open(&db.path).unwrap();
+    assert_eq!(reader.max_alert_id().unwrap(), 8);
+    assert_eq!(reader.alerts(false, None).unwrap(), vec![closed.clone(), acked.clone()]);
+    assert_eq!(reader.alerts(true, None).unwrap(), vec![acked.clone()]);
+    assert_eq!(reader.alerts(false, Some("oyster-c1")).unwrap(), vec![closed]);
+
+    // Acknowledgement requests: recorded, pending, then marked handled through the writer.
+    let conn = rusqlite::Connection::open(&db.path).unwrap();
+    let id = insert_ack_request(&conn, 7, "Ines", Some("note"), first.raised_at).unwrap();
+    let pending = pending_ack_requests(&conn).unwrap();
+    assert_eq!(pending.len(), 1);
+    assert_eq!((pending[0].alert_id, pending[0].by.as_str()), (7, "Ines"));
+    writer
+        .blocking_send(WriteItem::AckRequestHandled {
+            id,
+            handled_at: first.raised_at,
+            outcome: "acknowledged".into(),
+        })
+        .unwrap();
+    writer.blocking_flush().unwrap();
+    assert!(reader.pending_ack_requests().unwrap().is_empty());
+    drop(writer);
+    join.join().unwrap().unwrap();
+
+    // Restart: the open alert comes back once, and new ids continue above the highest stored one.
+    let mut engine = AlertEngine::new();
+    let settings = AlertSettings::default().resolve().unwrap();
+    engine.add_tank("smolt-a1", AlertLimits::default(), settings).unwrap();
+    let report = engine.restore(reader.alerts(true, None).unwrap(), reader.max_alert_id().unwrap());
+    assert_eq!(engine.open_alerts().count(), 1, "{report:?}");
+    let again = engine.restore(reader.alerts(true, None).unwrap(), reader.max_alert_id().unwrap());
+    assert_eq!(engine.open_alerts().count(), 1, "{again:?}");
+}
