@@ -3,7 +3,9 @@
 mod storage_support;
 
 use chrono::TimeDelta;
-use halotank::alerts::{AlertEngine, AlertId, AlertKind, AlertLimits, AlertRecord, AlertSettings, AlertState};
+use halotank::alerts::{
+    AlertEngine, AlertId, AlertKind, AlertLimits, AlertRecord, AlertSettings, AlertState,
+};
 use halotank::storage::alerts::{insert_ack_request, pending_ack_requests};
 use halotank::storage::{spawn_writer, Reader, WriteItem, WriterSettings};
 use storage_support::{at, temp_db};
@@ -34,11 +36,19 @@ fn alert_records_round_trip_and_upsert_by_id() {
     let (writer, _reports, join) = spawn_writer::<()>(&db.path, WriterSettings::default()).unwrap();
     let first = record(7, "smolt-a1", AlertState::Raised);
     let mut acked = first.clone();
-    acked.acknowledge("Ines", Some("probe checked"), first.raised_at + TimeDelta::minutes(3)).unwrap();
+    acked
+        .acknowledge(
+            "Ines",
+            Some("probe checked"),
+            first.raised_at + TimeDelta::minutes(3),
+        )
+        .unwrap();
     let mut closed = record(8, "oyster-c1", AlertState::Raised);
     closed.condition_cleared(closed.raised_at + TimeDelta::minutes(1));
     assert_eq!(closed.state, AlertState::ClearedUnacknowledged);
-    closed.acknowledge("Ines", None, closed.raised_at + TimeDelta::minutes(2)).unwrap();
+    closed
+        .acknowledge("Ines", None, closed.raised_at + TimeDelta::minutes(2))
+        .unwrap();
     assert_eq!(closed.state, AlertState::Cleared);
     for r in [first.clone(), acked.clone(), closed.clone()] {
         writer.blocking_send(WriteItem::Alert(r)).unwrap();
@@ -47,7 +57,10 @@ fn alert_records_round_trip_and_upsert_by_id() {
 
     let reader = Reader::open(&db.path).unwrap();
     assert_eq!(reader.max_alert_id().unwrap(), 8);
-    assert_eq!(reader.alerts(false, None).unwrap(), vec![closed.clone(), acked.clone()]);
+    assert_eq!(
+        reader.alerts(false, None).unwrap(),
+        vec![closed.clone(), acked.clone()]
+    );
     assert_eq!(reader.alerts(true, None).unwrap(), vec![acked.clone()]);
     assert_eq!(reader.alerts(false, Some("oyster-c1")).unwrap(), vec![closed]);
 
@@ -72,7 +85,9 @@ fn alert_records_round_trip_and_upsert_by_id() {
     // Restart: the open alert comes back once, and new ids continue above the highest stored one.
     let mut engine = AlertEngine::new();
     let settings = AlertSettings::default().resolve().unwrap();
-    engine.add_tank("smolt-a1", AlertLimits::default(), settings).unwrap();
+    engine
+        .add_tank("smolt-a1", AlertLimits::default(), settings)
+        .unwrap();
     let report = engine.restore(reader.alerts(true, None).unwrap(), reader.max_alert_id().unwrap());
     assert_eq!(engine.open_alerts().count(), 1, "{report:?}");
     let again = engine.restore(reader.alerts(true, None).unwrap(), reader.max_alert_id().unwrap());

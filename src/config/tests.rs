@@ -707,10 +707,14 @@ fn alert_layers_global_species_tank_win_key_by_key() {
     assert_eq!(resolved.stale_multiple, 6.0); // tank beats global
     let rule = resolved.rule(crate::alerts::AlertKind::SalinityTolerance);
     assert_eq!((rule.renotify_s, rule.min_duration_s), (900, 30)); // per field, per rule
-    // Without layers every value is the built-in default.
+                                                                   // Without layers every value is the built-in default.
     let plain = ok(&format!("{BASE}{TANK_A}"));
     assert_eq!(
-        plain.alerts.layered(None, &plain.tanks[0].alerts).resolve().unwrap(),
+        plain
+            .alerts
+            .layered(None, &plain.tanks[0].alerts)
+            .resolve()
+            .unwrap(),
         crate::alerts::AlertSettings::default().resolve().unwrap()
     );
 }
@@ -728,7 +732,8 @@ fn bad_alert_settings_name_the_key() {
     assert_eq!(key, "tanks[0].alerts");
     assert!(message.contains("stale_multipl"), "{message}");
 
-    let text = format!("{BASE}{TANK_A}\n[alerts.species.pacific_oyster.rules.probe_spike]\nrenotify_s = -1\n");
+    let text =
+        format!("{BASE}{TANK_A}\n[alerts.species.pacific_oyster.rules.probe_spike]\nrenotify_s = -1\n");
     let (_, key, _, _) = bad(&text);
     assert!(key.starts_with("alerts.species.pacific_oyster"), "{key}");
 }
