@@ -104,6 +104,9 @@ async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restar
     let (stop, stop_rx) = watch::channel(false);
     let daemon = tokio::spawn(halotank::daemon::run(cfg.clone(), stop_rx));
     tokio::time::sleep(Duration::from_millis(1500)).await;
+    let prefix = cfg.publish.topic_prefix.clone();
+    let mut watcher = Peer::connect(broker.addr(), &unique("watcher"), true).await;
+    watcher.subscribe(&format!("{prefix}/#")).await;
     let mut probe = Probe {
         peer: Peer::connect(broker.addr(), &unique("probe"), true).await,
         next: Utc::now() - TimeDelta::hours(1),
@@ -121,6 +124,27 @@ async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restar
     .await;
     let all = alerts(&db, false);
     assert_eq!(all.len(), 1, "{all:?}");
+
+    // Published: the raise on the tank's alert topic, the retained summary, and tonicity in the state.
+    let (mut raised, mut summary, mut tonicity) = (false, false, false);
+    while !(raised && summary && tonicity) {
+        let p = tokio::time::timeout(Duration::from_secs(5), watcher.next_publish())
+            .await
+            .expect("publishes");
+        // The daemon's status topic carries plain text; only JSON payloads are looked at.
+        let Ok(json) = serde_json::from_slice::<serde_json::Value>(&p.payload) else {
+            continue;
+        };
+        if p.topic == format!("{prefix}/tank/oyster-e1/alert") && json["event"] == "raised" {
+            assert_eq!(json["alert"]["kind"], "salinity_tolerance");
+            raised = true;
+        } else if p.topic == format!("{prefix}/alerts") && json["open_count"] == 1 {
+            summary = true;
+        } else if p.topic == format!("{prefix}/tank/oyster-e1/state") {
+            assert_eq!(json["tonicity"]["species"], SPECIES);
+            tonicity = true;
+        }
+    }
     assert_eq!(all[0].kind.as_str(), "salinity_tolerance");
     assert_eq!(all[0].severity.as_str(), "critical");
 

@@ -49,4 +49,24 @@ fn tonicity_round_trips_through_the_readings_table() {
     assert!(latest[0].tonicity.as_ref().unwrap().tonicity.is_some());
     assert!(latest[1].tonicity.as_ref().unwrap().tonicity.is_none());
     assert!(latest[2].tonicity.is_none());
+
+    // `halotank status` shows it, in text and JSON.
+    let args = halotank::cli::status::StatusArgs {
+        db: db.path.clone(),
+        format: halotank::cli::status::StatusFormat::Json,
+    };
+    let report = halotank::cli::status::build_report(&args, at(2024, 5, 14, 7, 0, 0)).unwrap();
+    let text = halotank::cli::status::render_text(&report);
+    let smolt_message = &rows[0].tonicity.as_ref().unwrap().message;
+    assert!(
+        text.contains(&format!("tonicity (atlantic_salmon_smolt): {smolt_message}")),
+        "{text}"
+    );
+    let json = serde_json::to_value(&report).unwrap();
+    let tanks = json["tanks"].as_array().unwrap();
+    let smolt = tanks.iter().find(|t| t["tank_id"] == "smolt-a1").unwrap();
+    assert_eq!(smolt["latest"]["tonicity"]["species"], "atlantic_salmon_smolt");
+    assert!(smolt["latest"]["tonicity"]["gradient_mOsm_kg"].is_number());
+    let spare = tanks.iter().find(|t| t["tank_id"] == "spare-d1").unwrap();
+    assert!(spare["latest"]["tonicity"].is_null());
 }
