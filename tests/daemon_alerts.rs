@@ -189,3 +189,18 @@ async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restar
     daemon.await.unwrap().unwrap();
     broker.stop().await;
 }
+
+#[test]
+fn a_tank_naming_an_unknown_species_refuses_the_start() {
+    let dir = tempfile::tempdir().unwrap();
+    let addr: std::net::SocketAddr = "127.0.0.1:1883".parse().unwrap();
+    let text = config_text(addr, &dir.path().join("x.sqlite3")).replace(SPECIES, "kraken_larva");
+    let cfg = config::parse(&text, &dir.path().join("halotank.toml")).unwrap();
+    let err = halotank::daemon::tank_profiles(&cfg).unwrap_err();
+    let shown = format!("{err:#}");
+    assert!(
+        shown.contains("oyster-e1") && shown.contains("kraken_larva"),
+        "{shown}"
+    );
+    assert!(shown.contains("not in the species library"), "{shown}");
+}

@@ -93,3 +93,55 @@ fn alert_records_round_trip_and_upsert_by_id() {
     let again = engine.restore(reader.alerts(true, None).unwrap(), reader.max_alert_id().unwrap());
     assert_eq!(engine.open_alerts().count(), 1, "{again:?}");
 }
+
+#[test]
+fn ack_without_a_running_daemon_is_applied_to_the_stored_record() {
+    let db = temp_db();
+    let (writer, _reports, join) = spawn_writer::<()>(&db.path, WriterSettings::default()).unwrap();
+    let mut open = record(3, "smolt-a1", AlertState::Raised);
+    open.condition_cleared(open.raised_at + TimeDelta::minutes(1));
+    writer.blocking_send(WriteItem::Alert(open)).unwrap();
+    writer.blocking_flush().unwrap();
+    drop(writer);
+    join.join().unwrap().unwrap();
+
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_halotank"))
+        .args(["ack", "--db"])
+        .arg(&db.path)
+        .args(["3", "--by", "Ines", "--note", "seen"])
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(String::from_utf8_lossy(&out.stdout).contains("no daemon running"));
+    let reader = Reader::open(&db.path).unwrap();
+    assert!(reader.alerts(true, None).unwrap().is_empty());
+    assert!(reader.pending_ack_requests().unwrap().is_empty());
+    let stored = &reader.alerts(false, None).unwrap()[0];
+    assert_eq!(stored.state, AlertState::Cleared);
+    assert_eq!(
+        stored.acknowledgement.as_ref().unwrap().note.as_deref(),
+        Some("seen")
+    );
+
+    // `halotank alerts --format json` lists it with the documented keys.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_halotank"))
+        .args(["alerts", "--db"])
+        .arg(&db.path)
+        .args(["--format", "json"])
+        .output()
+        .unwrap();
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let first = &json[0];
+    for key in ["id", "tank", "kind", "severity", "state", "raised_at", "message"] {
+        assert!(!first[key].is_null(), "{key} missing in {first}");
+    }
+    assert_eq!(first["state"], "cleared");
+    // A second ack of a closed alert is refused.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_halotank"))
+        .args(["ack", "--db"])
+        .arg(&db.path)
+        .args(["3", "--by", "Ines"])
+        .output()
+        .unwrap();
+    assert!(!out.status.success());
+}
