@@ -38,6 +38,8 @@ fn empty_file_is_migrated_to_the_current_version_with_wal_and_full_sync() {
     assert_eq!(
         tables(&conn),
         [
+            "alert_ack_requests",
+            "alerts",
             "daemon_state",
             "readings",
             "readings_hourly",

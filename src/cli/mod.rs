@@ -3,6 +3,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+pub mod alerts;
 pub mod check_config;
 pub mod convert;
 pub mod convert_csv;
@@ -49,6 +50,10 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Species profiles (list, show) and the isosmotic salinity of a species.
     Species(species::SpeciesArgs),
+    /// List stored alerts (all, or only open ones; one tank or all).
+    Alerts(alerts::AlertsArgs),
+    /// Acknowledge an alert (the running daemon picks it up within a few seconds).
+    Ack(alerts::AckArgs),
 }
 
 /// Parses the command line, runs the subcommand and maps errors to exit codes.
@@ -64,6 +69,8 @@ pub fn main() -> ExitCode {
         Command::Species(args) => species::run(args),
         Command::Plan(args) => plan::run(*args),
         Command::Schedule(args) => schedule::run(args),
+        Command::Alerts(args) => alerts::run_alerts(args),
+        Command::Ack(args) => alerts::run_ack(args),
     };
     match result {
         Ok(code) => code,

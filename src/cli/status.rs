@@ -9,6 +9,7 @@ use chrono::{DateTime, SecondsFormat, Utc};
 use serde::Serialize;
 
 use crate::seawater::Derived;
+use crate::species::TonicityState;
 use crate::storage::{Reader, ReasonCount, StorageError, SCHEMA_VERSION};
 
 /// The daemon state is called stale when older than this, s (the daemon rewrites it every few seconds).
@@ -78,6 +79,8 @@ pub struct LatestReading {
     pub temperature_c: f64,
     pub pressure_dbar: f64,
     pub derived: Derived,
+    /// The water against the tank's species (`null` when the reading was stored without a species).
+    pub tonicity: Option<TonicityState>,
 }
 
 /// Stored rejections.
@@ -149,6 +152,7 @@ pub fn build_report(args: &StatusArgs, now: DateTime<Utc>) -> Result<StatusRepor
                         temperature_c: r.temperature_c,
                         pressure_dbar: r.pressure_dbar,
                         derived: r.derived,
+                        tonicity: r.tonicity.clone(),
                     }),
                 tank_id: count.tank_id,
                 readings_stored: count.raw_readings,
@@ -238,6 +242,9 @@ pub fn render_text(report: &StatusReport) -> String {
                     "    osmolality {:.0} mOsm/kg, osmotic pressure {:.2} bar, freezing point {:.3} °C",
                     d.osmolality_mosm_kg, d.osmotic_pressure_bar, d.freezing_point_c
                 );
+                if let Some(t) = &r.tonicity {
+                    let _ = writeln!(s, "    tonicity ({}): {}", t.species, t.message);
+                }
             }
         }
     }

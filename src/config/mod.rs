@@ -1,7 +1,7 @@
 //! Configuration: one TOML file parsed once into typed, validated structs.
 //!
 //! Sections: `[site]`, `[broker]` (+ `[broker.tls]`), `[storage]`, `[publish]`, `[ingest]`,
-//! `[tank_defaults]` and `[[tanks]]`. Unknown keys are refused so typos surface. Every default lives in
+//! `[tank_defaults]`, `[[tanks]]` (+ `[tanks.alerts]`) and `[alerts]` (+ `[alerts.species.<id>]`). Unknown keys are refused so typos surface. Every default lives in
 //! [`defaults`]. Relative paths are resolved against the folder of the configuration file. Every error
 //! names the file, line, column and key at fault ([`ConfigError`]).
 use std::collections::HashMap;
@@ -9,6 +9,7 @@ use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
 
+pub mod alerts;
 pub mod broker;
 pub mod defaults;
 pub mod error;
@@ -21,6 +22,7 @@ pub mod storage;
 pub mod tank;
 pub mod topics;
 
+pub use alerts::AlertsConfig;
 pub use broker::{BrokerConfig, ClientAuth, PasswordError, PasswordSource, Secret, TlsConfig};
 pub use error::{ConfigError, Position};
 pub use ingest::IngestSettings;
@@ -44,6 +46,8 @@ pub struct Config {
     pub ingest: IngestSettings,
     /// The tanks, in file order (a tank's index is its position here).
     pub tanks: Vec<TankConfig>,
+    /// `[alerts]` and `[alerts.species.<id>]`.
+    pub alerts: AlertsConfig,
 }
 
 impl Config {
@@ -65,6 +69,7 @@ struct RawConfig {
     tank_defaults: Option<tank::RawTankDefaults>,
     #[serde(default)]
     tanks: Vec<tank::RawTank>,
+    alerts: Option<toml::Table>,
 }
 
 /// Reads and validates the configuration file at `path`.
@@ -95,7 +100,7 @@ pub(crate) fn resolve_path(base: &Path, path: &str) -> PathBuf {
 fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
     let root = KeyPath::root();
     let base = origin.parent().unwrap_or(Path::new("")).to_path_buf();
-    let site = raw.site.resolve(&root.key("site"))?;
+    let site = raw.site.resolve(&root.key("site"), &base)?;
     let broker = raw.broker.resolve(&root.key("broker"), &site, &base)?;
     let storage = raw.storage.resolve(&root.key("storage"), &base)?;
     let publish = raw
@@ -103,6 +108,7 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
         .unwrap_or_default()
         .resolve(&root.key("publish"), &site)?;
     let ingest = raw.ingest.unwrap_or_default().resolve(&root.key("ingest"))?;
+    let alerts = alerts::parse_alerts(raw.alerts, &root.key("alerts"))?;
     if raw.tanks.is_empty() {
         return Err(Invalid::new(
             root.key("tanks"),
@@ -116,6 +122,7 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
     for (i, raw_tank) in raw.tanks.iter().enumerate() {
         let path = root.key("tanks").index(i);
         let (tank, origins) = raw_tank.resolve(&path, raw.tank_defaults.as_ref(), &ingest)?;
+        alerts::resolve_for_tank(&alerts, tank.species.as_deref(), &tank.alerts, &path)?;
         if let Some(first) = ids.insert(tank.id.clone(), i) {
             return Err(Invalid::new(
                 path.key("id"),
@@ -167,6 +174,7 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
         publish,
         ingest,
         tanks,
+        alerts,
     })
 }
 

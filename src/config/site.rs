@@ -1,4 +1,6 @@
-//! The `[site]` section: the site's display name and the slug derived from it.
+//! The `[site]` section: the site's display name, the slug derived from it, and the species library.
+use std::path::{Path, PathBuf};
+
 use serde::Deserialize;
 
 use super::error::Invalid;
@@ -9,6 +11,7 @@ use super::key_path::KeyPath;
 #[serde(deny_unknown_fields)]
 pub(crate) struct RawSite {
     pub name: String,
+    pub species_library: Option<String>,
 }
 
 /// The site halotank runs for.
@@ -18,10 +21,13 @@ pub struct SiteConfig {
     pub name: String,
     /// Lower-case ASCII slug of the name (`brannock-sound-hatchery`), used in default ids and topics.
     pub slug: String,
+    /// `species_library = "path"`: a species library file replacing the built-in one (resolved against
+    /// the configuration file's folder). `None`: the library embedded in halotank.
+    pub species_library: Option<PathBuf>,
 }
 
 impl RawSite {
-    pub(crate) fn resolve(self, path: &KeyPath) -> Result<SiteConfig, Invalid> {
+    pub(crate) fn resolve(self, path: &KeyPath, base: &Path) -> Result<SiteConfig, Invalid> {
         let name = self.name.trim().to_string();
         let slug = slugify(&name);
         if slug.is_empty() {
@@ -30,7 +36,21 @@ impl RawSite {
                 "must contain at least one ASCII letter or digit",
             ));
         }
-        Ok(SiteConfig { name, slug })
+        let species_library = match self.species_library.as_deref().map(str::trim) {
+            Some("") => {
+                return Err(Invalid::new(
+                    path.key("species_library"),
+                    "must not be empty when given (leave it out to use the built-in library)",
+                ))
+            }
+            Some(p) => Some(super::resolve_path(base, p)),
+            None => None,
+        };
+        Ok(SiteConfig {
+            name,
+            slug,
+            species_library,
+        })
     }
 }
 

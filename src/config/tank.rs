@@ -133,6 +133,8 @@ pub struct TankConfig {
     pub probe_mode: ProbeMode,
     /// Expected time between readings, seconds.
     pub expected_interval_s: u64,
+    /// `[tanks.alerts]`: this tank's alert settings layer (over the global and species layers).
+    pub alerts: crate::alerts::AlertSettings,
 }
 
 /// Probe modes as spelled in the file.
@@ -195,6 +197,7 @@ pub(crate) struct RawTank {
     alpha_percent_per_c: Option<f64>,
     expected_interval_s: Option<u64>,
     pressure_dbar: Option<f64>,
+    alerts: Option<toml::Table>,
 }
 
 /// Where each of a resolved tank's topics was written (for error messages).
@@ -334,6 +337,10 @@ impl RawTank {
                 conductivity_unit,
                 probe_mode,
                 expected_interval_s,
+                alerts: match &self.alerts {
+                    Some(table) => super::alerts::settings_from_table(table.clone(), &path.key("alerts"))?,
+                    None => crate::alerts::AlertSettings::default(),
+                },
             },
             origins,
         ))

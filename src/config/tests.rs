@@ -685,3 +685,55 @@ fn a_species_override_needs_a_species_and_sound_values() {
     let (_, _, message, _) = bad(&text);
     assert!(message.contains("salinity_range"), "{message}");
 }
+
+#[test]
+fn alert_layers_global_species_tank_win_key_by_key() {
+    let text = format!(
+        "{BASE}\n[alerts]\nsalinity_hysteresis_sp = 0.4\nstale_multiple = 4.0\n\
+         [alerts.rules.salinity_tolerance]\nrenotify_s = 900\n\
+         [alerts.species.pacific_oyster]\nsalinity_hysteresis_sp = 0.6\n\
+         [[tanks]]\nid = \"oyster-c1\"\nname = \"Oyster C1\"\nvolume_l = 500\nspecies = \"pacific_oyster\"\n\
+         [tanks.topics]\ncombined = \"site/oyster-c1/state\"\n[tanks.alerts]\nstale_multiple = 6.0\n\
+         [tanks.alerts.rules.salinity_tolerance]\nmin_duration_s = 30\n"
+    );
+    let config = ok(&text);
+    let tank = &config.tanks[0];
+    let resolved = config
+        .alerts
+        .layered(tank.species.as_deref(), &tank.alerts)
+        .resolve()
+        .unwrap();
+    assert_eq!(resolved.salinity_hysteresis_sp, 0.6); // species beats global
+    assert_eq!(resolved.stale_multiple, 6.0); // tank beats global
+    let rule = resolved.rule(crate::alerts::AlertKind::SalinityTolerance);
+    assert_eq!((rule.renotify_s, rule.min_duration_s), (900, 30)); // per field, per rule
+                                                                   // Without layers every value is the built-in default.
+    let plain = ok(&format!("{BASE}{TANK_A}"));
+    assert_eq!(
+        plain
+            .alerts
+            .layered(None, &plain.tanks[0].alerts)
+            .resolve()
+            .unwrap(),
+        crate::alerts::AlertSettings::default().resolve().unwrap()
+    );
+}
+
+#[test]
+fn bad_alert_settings_name_the_key() {
+    let text = format!("{BASE}{TANK_A}\n[alerts]\nrate_clear_fraction = 1.5\n");
+    let (line, key, message, _) = bad(&text);
+    assert_eq!(key, "alerts.rate_clear_fraction");
+    assert_eq!(line, Some(line_of(&text, "rate_clear_fraction")));
+    assert!(message.contains("between 0 and 1"), "{message}");
+
+    let text = format!("{BASE}{TANK_A}[tanks.alerts]\nstale_multipl = 3.0\n");
+    let (_, key, message, _) = bad(&text);
+    assert_eq!(key, "tanks[0].alerts");
+    assert!(message.contains("stale_multipl"), "{message}");
+
+    let text =
+        format!("{BASE}{TANK_A}\n[alerts.species.pacific_oyster.rules.probe_spike]\nrenotify_s = -1\n");
+    let (_, key, _, _) = bad(&text);
+    assert!(key.starts_with("alerts.species.pacific_oyster"), "{key}");
+}

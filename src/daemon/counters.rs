@@ -14,6 +14,8 @@ pub struct Counters {
     pub readings: u64,
     /// Temperature-only messages kept for pairing.
     pub buffered: u64,
+    /// Readings stored without tonicity because the science core refused the assessment.
+    pub tonicity_refused: u64,
     pub rejected: BTreeMap<&'static str, u64>,
     pub ignored: BTreeMap<&'static str, u64>,
 }

@@ -1,17 +1,23 @@
-//! One MQTT message in, one storage item out: ingest, derive, and count. No I/O but logging.
+//! One MQTT message in, one storage item out: ingest, derive, assess tonicity against the tank's species,
+//! and count. No I/O but logging.
 use chrono::{DateTime, Utc};
 
 use super::acker::Pending;
+use super::alerting::Alerting;
 use super::counters::Counters;
 use super::tank_state::TankState;
 use crate::config::Config;
 use crate::ingest::{AcceptedReading, IngestOutcome, Ingestor, LogDecision, LogLimiter, Rejection};
 use crate::mqtt::AckToken;
 use crate::seawater::derive::derive_from_conductivity;
+use crate::species::{tonicity, SpeciesProfile};
 use crate::storage::{ReadingRow, RejectionRow, WriteItem};
 
 /// Rejection code for a reading the science core refused (outside the equations' range).
 pub const SCIENCE_REFUSED: &str = "outside_science_range";
+
+/// Log-limiter key for a reading whose tonicity the science core refused (the reading is still stored).
+const TONICITY_REFUSED: &str = "tonicity_refused";
 
 /// Seconds between two log lines of the same rejection reason.
 const REJECTION_LOG_INTERVAL_S: i64 = 10;
@@ -21,15 +27,25 @@ const REJECTION_LOG_INTERVAL_S: i64 = 10;
 pub struct MessageHandler {
     ingestor: Ingestor,
     tank_names: Vec<String>,
+    /// Each tank's effective species profile, by tank index (`None`: the tank names no species).
+    profiles: Vec<Option<SpeciesProfile>>,
+    alerting: Alerting,
+    /// Alert events of handled messages, taken by the daemon with [`MessageHandler::take_alert_events`].
+    events: Vec<crate::alerts::AlertEvent>,
     counters: Counters,
     log_limit: LogLimiter<&'static str>,
 }
 
 impl MessageHandler {
-    pub fn new(config: &Config) -> Self {
+    /// `profiles[i]` is the effective species profile of `config.tanks[i]` (see
+    /// [`SpeciesLibrary::profile_for_tank`](crate::species::SpeciesLibrary::profile_for_tank)).
+    pub fn new(config: &Config, profiles: Vec<Option<SpeciesProfile>>, alerting: Alerting) -> Self {
         Self {
             ingestor: Ingestor::new(config),
             tank_names: config.tanks.iter().map(|t| t.name.clone()).collect(),
+            profiles,
+            alerting,
+            events: Vec::new(),
             counters: Counters::default(),
             log_limit: LogLimiter::new(chrono::Duration::seconds(REJECTION_LOG_INTERVAL_S)),
         }
@@ -37,6 +53,16 @@ impl MessageHandler {
 
     pub fn counters(&self) -> &Counters {
         &self.counters
+    }
+
+    /// The alert engine (for clock ticks and acknowledgements).
+    pub fn alerting_mut(&mut self) -> &mut Alerting {
+        &mut self.alerting
+    }
+
+    /// The alert events raised by the messages handled since the last call.
+    pub fn take_alert_events(&mut self) -> Vec<crate::alerts::AlertEvent> {
+        std::mem::take(&mut self.events)
     }
 
     /// The storage item for one message; `ack` is released once that item is committed.
@@ -52,6 +78,9 @@ impl MessageHandler {
                 Ok(rows) => {
                     self.counters.accepted_messages += 1;
                     self.counters.readings += rows.len() as u64;
+                    // The message's arrival time is the engine's clock for the readings it carries.
+                    let events = self.alerting.on_rows(&rows, received_at);
+                    self.events.extend(events);
                     let state = rows.iter().max_by_key(|r| r.time).and_then(|row| {
                         let index = readings.first().map(|r| r.tank_index)?;
                         let name = self.tank_names.get(index)?;
@@ -94,13 +123,14 @@ impl MessageHandler {
     }
 
     /// Derives every reading of a message; one refusal refuses the message (all or nothing).
-    fn derive_all(&self, readings: &[AcceptedReading]) -> Result<Vec<ReadingRow>, String> {
+    fn derive_all(&mut self, readings: &[AcceptedReading]) -> Result<Vec<ReadingRow>, String> {
         readings
             .iter()
             .map(|r| {
                 let derived =
                     derive_from_conductivity(r.conductivity_ms_cm, r.temperature_c, r.pressure_dbar, 0.0)
                         .map_err(|e| format!("reading at {}: {e}", r.time))?;
+                let tonicity = self.tonicity(r, &derived);
                 Ok(ReadingRow {
                     tank_id: r.tank_id.clone(),
                     time: r.time,
@@ -111,9 +141,31 @@ impl MessageHandler {
                     temperature_c: r.temperature_c,
                     pressure_dbar: r.pressure_dbar,
                     derived,
+                    tonicity,
                 })
             })
             .collect()
+    }
+
+    /// The tonicity of one derived reading for its tank's species; a refusal of the science core keeps the
+    /// reading (without tonicity) and is counted and logged.
+    fn tonicity(
+        &mut self,
+        r: &AcceptedReading,
+        derived: &crate::seawater::Derived,
+    ) -> Option<crate::species::TonicityState> {
+        let profile = self.profiles.get(r.tank_index)?.as_ref()?;
+        match tonicity::assess(derived, r.temperature_c, r.pressure_dbar, profile) {
+            Ok(state) => Some(state),
+            Err(err) => {
+                self.counters.tonicity_refused += 1;
+                if let LogDecision::Emit { suppressed } = self.log_limit.check(&TONICITY_REFUSED, r.time) {
+                    tracing::warn!(tank = %r.tank_id, suppressed, error = %err,
+                        "tonicity not assessed; reading kept without it");
+                }
+                None
+            }
+        }
     }
 
     fn log_rejection(&mut self, code: &'static str, topic: &str, detail: &str, now: DateTime<Utc>) {

@@ -5,9 +5,17 @@
 //!      ▲                                                                          │
 //!      └──────────── acks, retained tank state ◀── acker ◀──CommitReport──────────┘
 //! ```
+//! Alerts: the handler runs the alert engine on each derived reading; every event's record goes to the
+//! writer (`WriteItem::Alert`) and the event to the alert publisher (MQTT, and the delivery hook). Every
+//! [`ALERT_TICK`] the loop ticks the engine and applies acknowledgement requests the CLI left in the
+//! database (`alert_ack_requests`).
+//!
 //! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
 //! ignored messages travel through the writer too, so acks leave in the order messages arrived.
 pub mod acker;
+pub mod alert_limits;
+pub mod alert_publisher;
+pub mod alerting;
 pub mod connection;
 pub mod counters;
 pub mod handler;
@@ -23,7 +31,11 @@ use tokio::sync::watch;
 use crate::config::Config;
 use crate::ingest::subscriptions;
 use crate::mqtt::{ConnectionState, MqttHandle};
-use crate::storage::{spawn_writer, DaemonStateRow, RetentionSettings, WriteItem, WriterSettings};
+use crate::species::{SpeciesLibrary, SpeciesProfile};
+use crate::storage::{
+    spawn_writer, DaemonStateRow, Reader, RetentionSettings, StorageError, WriteItem, WriterHandle,
+    WriterSettings,
+};
 
 use acker::{run_acker, AckerSummary, Pending};
 use handler::MessageHandler;
@@ -34,6 +46,10 @@ const STATE_INTERVAL: Duration = Duration::from_secs(5);
 const RETENTION_INTERVAL: Duration = Duration::from_secs(3600);
 /// A broker outage longer than this is logged as a warning, once per interval.
 const OUTAGE_WARNING: chrono::TimeDelta = chrono::TimeDelta::seconds(60);
+/// How often the alert engine's clock advances and acknowledgement requests are polled.
+const ALERT_TICK: Duration = Duration::from_secs(2);
+/// Capacity of the queue from the ingest loop to the alert publisher.
+const ALERT_QUEUE: usize = 1024;
 /// How long a graceful MQTT shutdown may take.
 const MQTT_SHUTDOWN_TIMEOUT: Duration = Duration::from_secs(10);
 
@@ -52,6 +68,8 @@ pub struct RunSummary {
 /// publishes `offline` and returns.
 pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
     let started_at = Utc::now();
+    let profiles = tank_profiles(&config)?;
+    let mut alerting = alerting::Alerting::new(&config, &profiles)?;
     let window = usize::from(config.broker.max_inflight).max(1);
     // Acks wait for commits, and the broker sends at most `window` unacked QoS 1 messages: a batch
     // larger than the window would never fill, so flush_rows is capped at it.
@@ -63,6 +81,16 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     .cap_flush_rows(window);
     let (writer, reports, writer_thread) = spawn_writer::<Pending>(&config.storage.path, settings)
         .with_context(|| format!("cannot open the database {}", config.storage.path.display()))?;
+
+    // The writer has migrated the schema: read back the open alerts and the highest id.
+    let reader = Reader::open(&config.storage.path)
+        .with_context(|| format!("cannot read the database {}", config.storage.path.display()))?;
+    let restored = reader
+        .alerts(true, None)
+        .context("cannot read the stored alerts")?;
+    let highest_id = reader.max_alert_id().context("cannot read the stored alerts")?;
+    let restore_report = alerting.restore(restored, highest_id);
+    tracing::info!(?restore_report, highest_id, "open alerts restored");
 
     let options = connection::connection_options(&config)?;
     let filters = subscriptions(&config);
@@ -82,7 +110,20 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         config.publish.topic_prefix.clone(),
     ));
 
-    let mut handler = MessageHandler::new(&config);
+    let (alert_tx, alert_rx) = tokio::sync::mpsc::channel(ALERT_QUEUE);
+    // Delivery hook: pass `Some(sender)` here to forward every alert event to webhook/exec delivery
+    // (src/alerts/delivery/); see `alert_publisher` for the forwarding rules.
+    let delivery: Option<tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>> = None;
+    let alert_publisher = tokio::spawn(alert_publisher::run_alert_publisher(
+        alert_rx,
+        mqtt.clone(),
+        config.publish.topic_prefix.clone(),
+        alerting.open_alerts(),
+        delivery,
+    ));
+    let mut handler = MessageHandler::new(&config, profiles, alerting);
+    let mut alert_tick = tokio::time::interval(ALERT_TICK);
+    let mut handled_requests: std::collections::HashSet<i64> = std::collections::HashSet::new();
     let mut link = mqtt.connection_state();
     let mut state_tick = tokio::time::interval(STATE_INTERVAL);
     let mut retention_tick = tokio::time::interval(RETENTION_INTERVAL);
@@ -110,6 +151,42 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                 let item = handler.handle(&message.topic, &message.payload, message.received_at, Some(message.ack));
                 if writer.send(item).await.is_err() {
                     tracing::error!("database writer stopped; shutting down");
+                    break;
+                }
+                let events = handler.take_alert_events();
+                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
+                    break;
+                }
+            }
+            _ = alert_tick.tick() => {
+                let now = Utc::now();
+                let mut events = handler.alerting_mut().on_tick(now);
+                match reader.pending_ack_requests() {
+                    Ok(requests) => {
+                        for request in requests {
+                            if !handled_requests.insert(request.id) {
+                                continue;
+                            }
+                            let outcome = match handler.alerting_mut().acknowledge(&request, now) {
+                                Ok(event) => {
+                                    tracing::info!(alert = request.alert_id, by = %request.by, "alert acknowledged");
+                                    events.push(event);
+                                    "acknowledged".to_string()
+                                }
+                                Err(err) => {
+                                    tracing::warn!(alert = request.alert_id, error = %err, "acknowledgement refused");
+                                    format!("refused: {err}")
+                                }
+                            };
+                            let item = WriteItem::AckRequestHandled { id: request.id, handled_at: now, outcome };
+                            if writer.send(item).await.is_err() {
+                                break;
+                            }
+                        }
+                    }
+                    Err(err) => tracing::warn!(error = %err, "cannot read acknowledgement requests"),
+                }
+                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
                     break;
                 }
             }
@@ -157,6 +234,8 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         tracing::error!(error = %err, "final commit failed");
     }
     drop(writer);
+    drop(alert_tx);
+    let _ = alert_publisher.await;
     let writer_result = tokio::task::spawn_blocking(move || writer_thread.join()).await;
     let acked: AckerSummary = acker.await.unwrap_or_default();
     if let Err(err) = mqtt.shutdown(MQTT_SHUTDOWN_TIMEOUT).await {
@@ -178,6 +257,48 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     };
     tracing::info!(?summary, "halotank daemon stopped");
     Ok(summary)
+}
+
+/// Loads the species library (`[site] species_library`, else the built-in one) and each tank's effective
+/// profile, by tank index. A tank naming an unknown species, or a bad library, refuses the start.
+pub fn tank_profiles(config: &Config) -> anyhow::Result<Vec<Option<SpeciesProfile>>> {
+    let library = match &config.site.species_library {
+        Some(path) => SpeciesLibrary::load(path)
+            .with_context(|| format!("cannot load the species library {}", path.display()))?,
+        None => SpeciesLibrary::embedded().context("the built-in species library is invalid")?,
+    };
+    config
+        .tanks
+        .iter()
+        .map(|tank| {
+            library.profile_for_tank(tank).with_context(|| {
+                format!(
+                    "tank `{}` in {}: species profile not usable (library {})",
+                    tank.id,
+                    config.origin.display(),
+                    library.origin().display()
+                )
+            })
+        })
+        .collect()
+}
+
+/// Persists each event's record (through the one writer) and hands the event to the alert publisher.
+/// A full publisher queue drops the publish, never the record.
+async fn emit_alert_events(
+    writer: &WriterHandle<Pending>,
+    publisher: &tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>,
+    events: Vec<crate::alerts::AlertEvent>,
+) -> Result<(), StorageError> {
+    for event in events {
+        tracing::info!(event = event.name(), alert = %event.id(), tank = %event.alert().tank,
+            severity = event.severity().as_str(), "{}", event.message());
+        writer.send(WriteItem::Alert(event.alert().clone())).await?;
+        if publisher.try_send(event).is_err() {
+            tracing::warn!("alert publisher queue full; event not published");
+        }
+    }
+    Ok(())
 }
 
 fn daemon_state_row(

@@ -3,6 +3,7 @@ use chrono::{DateTime, SecondsFormat, Utc};
 use serde::Serialize;
 
 use crate::seawater::Derived;
+use crate::species::TonicityState;
 use crate::storage::ReadingRow;
 
 /// The JSON published for a tank after its reading has been committed.
@@ -18,6 +19,8 @@ pub struct TankState {
     pub pressure_dbar: f64,
     #[serde(flatten)]
     pub derived: Derived,
+    /// The water against the tank's species (`null` when the tank names no species).
+    pub tonicity: Option<TonicityState>,
 }
 
 impl TankState {
@@ -31,6 +34,7 @@ impl TankState {
             temperature_c: row.temperature_c,
             pressure_dbar: row.pressure_dbar,
             derived: row.derived,
+            tonicity: row.tonicity.clone(),
         }
     }
 }

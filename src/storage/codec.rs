@@ -3,6 +3,7 @@ use chrono::{DateTime, Utc};
 
 use super::error::StorageError;
 use crate::seawater::practical_salinity::SalinityRange;
+use crate::species::{Tonicity, WaterMovement};
 
 /// Milliseconds in one hour.
 pub const HOUR_MS: i64 = 3_600_000;
@@ -47,6 +48,47 @@ pub fn salinity_range_from_code(code: &str) -> Result<SalinityRange, StorageErro
     }
 }
 
+/// The stored code of a tonicity (its JSON spelling).
+pub fn tonicity_code(tonicity: Tonicity) -> &'static str {
+    tonicity.as_str()
+}
+
+/// Parses a stored tonicity code.
+pub fn tonicity_from_code(code: &str) -> Result<Tonicity, StorageError> {
+    [Tonicity::Hyperosmotic, Tonicity::Isosmotic, Tonicity::Hypoosmotic]
+        .into_iter()
+        .find(|t| t.as_str() == code)
+        .ok_or_else(|| StorageError::CorruptRow {
+            what: format!("unknown tonicity code `{code}`"),
+        })
+}
+
+const WATER_MOVEMENTS: [(WaterMovement, &str); 4] = [
+    (WaterMovement::IntoAnimal, "into_animal"),
+    (WaterMovement::OutOfAnimal, "out_of_animal"),
+    (WaterMovement::LittleNetMovement, "little_net_movement"),
+    (WaterMovement::FollowsWater, "follows_water"),
+];
+
+/// The stored code of a water movement (its JSON spelling).
+pub fn water_movement_code(movement: WaterMovement) -> &'static str {
+    WATER_MOVEMENTS
+        .iter()
+        .find(|(m, _)| *m == movement)
+        .map_or("follows_water", |(_, code)| code)
+}
+
+/// Parses a stored water-movement code.
+pub fn water_movement_from_code(code: &str) -> Result<WaterMovement, StorageError> {
+    WATER_MOVEMENTS
+        .iter()
+        .find(|(_, c)| *c == code)
+        .map(|(m, _)| *m)
+        .ok_or_else(|| StorageError::CorruptRow {
+            what: format!("unknown water movement code `{code}`"),
+        })
+}
+
 /// A stored count (SQLite INTEGER) as u64; negative values are a corrupt row.
 pub fn count_from_sql(value: i64) -> Result<u64, StorageError> {
     u64::try_from(value).map_err(|_| StorageError::CorruptRow {
@@ -84,6 +126,20 @@ mod tests {
             );
         }
         assert!(salinity_range_from_code("brine").is_err());
+    }
+
+    #[test]
+    fn tonicity_and_movement_codes_round_trip_and_match_json() {
+        for t in [Tonicity::Hyperosmotic, Tonicity::Isosmotic, Tonicity::Hypoosmotic] {
+            assert_eq!(tonicity_from_code(tonicity_code(t)).unwrap(), t);
+            assert_eq!(serde_json::to_value(t).unwrap(), tonicity_code(t));
+        }
+        for (m, _) in WATER_MOVEMENTS {
+            assert_eq!(water_movement_from_code(water_movement_code(m)).unwrap(), m);
+            assert_eq!(serde_json::to_value(m).unwrap(), water_movement_code(m));
+        }
+        assert!(tonicity_from_code("brackish").is_err());
+        assert!(water_movement_from_code("sideways").is_err());
     }
 
     #[test]

@@ -2,15 +2,18 @@
 //! before it is written.
 use rusqlite::{params, Connection};
 
-use super::codec::{count_to_sql, salinity_range_code, time_to_ms};
+use super::codec::{count_to_sql, salinity_range_code, time_to_ms, tonicity_code, water_movement_code};
 use super::rows::{DaemonStateRow, ReadingRow, RejectionRow, PAYLOAD_PREFIX_MAX_BYTES};
 
 const INSERT_READING: &str = "INSERT OR IGNORE INTO readings (
     tank_id, time_ms, source_topic, conductivity_reported, conductivity_unit, conductivity_ms_cm,
     temperature_c, pressure_dbar, practical_salinity, salinity_range, absolute_salinity_g_kg, density_kg_m3,
     osmotic_coefficient, osmolality_mosm_kg, osmotic_pressure_bar, solute_potential_bar, water_potential_bar,
-    freezing_point_c
-) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18)";
+    freezing_point_c, species, osmotic_strategy, tonicity, plasma_osmolality_mosm_kg, isosmotic_band_mosm_kg,
+    gradient_mosm_kg, water_potential_difference_bar, isosmotic_practical_salinity, water_movement,
+    tonicity_message
+) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18,
+    ?19, ?20, ?21, ?22, ?23, ?24, ?25, ?26, ?27, ?28)";
 
 const INSERT_REJECTION: &str =
     "INSERT INTO rejections (time_ms, topic, tank_id, reason, detail, payload_prefix)
@@ -73,6 +76,9 @@ pub fn rejection_for_invalid(row: &ReadingRow, problem: String) -> RejectionRow 
 /// Inserts a reading; `Ok(false)` if a reading with the same (tank, time, topic) was already stored.
 pub fn insert_reading(conn: &Connection, row: &ReadingRow) -> rusqlite::Result<bool> {
     let d = &row.derived;
+    let t = row.tonicity.as_ref();
+    // Non-finite optional numbers are stored as NULL (SQLite does so for NaN anyway).
+    let finite = |x: Option<f64>| x.filter(|v| v.is_finite());
     let mut stmt = conn.prepare_cached(INSERT_READING)?;
     let changed = stmt.execute(params![
         row.tank_id,
@@ -93,6 +99,16 @@ pub fn insert_reading(conn: &Connection, row: &ReadingRow) -> rusqlite::Result<b
         d.solute_potential_bar,
         d.water_potential_bar,
         d.freezing_point_c,
+        t.map(|t| t.species.as_str()),
+        t.map(|t| t.osmotic_strategy.as_str()),
+        t.and_then(|t| t.tonicity).map(tonicity_code),
+        finite(t.and_then(|t| t.plasma_osmolality_mosm_kg)),
+        finite(t.map(|t| t.isosmotic_band_mosm_kg)),
+        finite(t.and_then(|t| t.gradient_mosm_kg)),
+        finite(t.and_then(|t| t.water_potential_difference_bar)),
+        finite(t.and_then(|t| t.isosmotic_practical_salinity)),
+        t.map(|t| water_movement_code(t.water_movement)),
+        t.map(|t| t.message.as_str()),
     ])?;
     Ok(changed == 1)
 }

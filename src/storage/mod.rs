@@ -4,7 +4,9 @@
 //! - [`writer`]: one thread owns the write connection; commits batches and reports the acks they cover.
 //! - [`retention`]: folds old readings into hourly summaries.
 //! - [`queries`]: read-only connections for `history` and `status`.
+//! - [`alerts`]: alert records and acknowledgement requests.
 //! - [`schedules`]: stored acclimation schedules (their own read-write connection, checked changes).
+pub mod alerts;
 pub mod codec;
 pub mod error;
 pub mod insert;
@@ -16,6 +18,7 @@ pub mod schedules;
 pub mod schema;
 pub mod writer;
 
+pub use alerts::AckRequest;
 pub use error::StorageError;
 pub use queries::{Reader, ReasonCount, TankReadingCount};
 pub use retention::{RetentionReport, RetentionSettings};

@@ -7,11 +7,15 @@ use rusqlite::types::Type;
 use rusqlite::{params, Connection, Row};
 use serde::Serialize;
 
-use super::codec::{count_from_sql, ms_to_time, salinity_range_from_code, time_to_ms};
+use super::codec::{
+    count_from_sql, ms_to_time, salinity_range_from_code, time_to_ms, tonicity_from_code,
+    water_movement_from_code,
+};
 use super::error::StorageError;
 use super::rows::{DaemonStateRow, HourlyRow, HourlyStats, ReadingRow};
 use super::schema::open_for_reading;
 use crate::seawater::Derived;
+use crate::species::{OsmoticStrategy, TonicityState};
 
 /// How long a reader waits on a lock (rare in WAL mode: only during recovery).
 const READER_BUSY_TIMEOUT: Duration = Duration::from_secs(2);
@@ -19,7 +23,9 @@ const READER_BUSY_TIMEOUT: Duration = Duration::from_secs(2);
 const READING_COLUMNS: &str = "tank_id, time_ms, source_topic, conductivity_reported, conductivity_unit,
     conductivity_ms_cm, temperature_c, pressure_dbar, practical_salinity, salinity_range,
     absolute_salinity_g_kg, density_kg_m3, osmotic_coefficient, osmolality_mosm_kg, osmotic_pressure_bar,
-    solute_potential_bar, water_potential_bar, freezing_point_c";
+    solute_potential_bar, water_potential_bar, freezing_point_c, species, osmotic_strategy, tonicity,
+    plasma_osmolality_mosm_kg, isosmotic_band_mosm_kg, gradient_mosm_kg, water_potential_difference_bar,
+    isosmotic_practical_salinity, water_movement, tonicity_message";
 
 /// Readings stored for one tank: raw rows, and readings already folded into hourly summaries.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -51,6 +57,25 @@ impl Reader {
             conn,
             path: path.to_path_buf(),
         })
+    }
+
+    /// Alerts, newest first (see [`super::alerts::select_alerts`]).
+    pub fn alerts(
+        &self,
+        open_only: bool,
+        tank: Option<&str>,
+    ) -> Result<Vec<crate::alerts::AlertRecord>, StorageError> {
+        super::alerts::select_alerts(&self.conn, open_only, tank)
+    }
+
+    /// The highest alert id ever stored (0 when none).
+    pub fn max_alert_id(&self) -> Result<u64, StorageError> {
+        super::alerts::max_alert_id(&self.conn)
+    }
+
+    /// Acknowledgement requests not handled yet.
+    pub fn pending_ack_requests(&self) -> Result<Vec<super::AckRequest>, StorageError> {
+        super::alerts::pending_ack_requests(&self.conn)
     }
 
     /// The database file this reader reads.
@@ -328,7 +353,9 @@ fn reading_from_row(row: &Row<'_>) -> rusqlite::Result<ReadingRow> {
     };
     let time_ms: i64 = row.get(1)?;
     let range_code: String = row.get(9)?;
+    let osmolality_mosm_kg: f64 = row.get(13)?;
     Ok(ReadingRow {
+        tonicity: tonicity_from_columns(row, osmolality_mosm_kg)?,
         tank_id: row.get(0)?,
         time: ms_to_time(time_ms).map_err(|e| conversion(1, Type::Integer, e))?,
         source_topic: row.get(2)?,
@@ -344,11 +371,49 @@ fn reading_from_row(row: &Row<'_>) -> rusqlite::Result<ReadingRow> {
             absolute_salinity_g_kg: row.get(10)?,
             density_kg_m3: row.get(11)?,
             osmotic_coefficient: row.get(12)?,
-            osmolality_mosm_kg: row.get(13)?,
+            osmolality_mosm_kg,
             osmotic_pressure_bar: row.get(14)?,
             solute_potential_bar: row.get(15)?,
             water_potential_bar: row.get(16)?,
             freezing_point_c: row.get(17)?,
         },
     })
+}
+
+/// The tonicity columns (18..=27 of [`READING_COLUMNS`]) back into a [`TonicityState`]; `None` when the
+/// reading was stored without a species.
+fn tonicity_from_columns(row: &Row<'_>, water_mosm_kg: f64) -> rusqlite::Result<Option<TonicityState>> {
+    let conversion = |index: usize, err: StorageError| {
+        rusqlite::Error::FromSqlConversionFailure(index, Type::Text, Box::new(err))
+    };
+    let Some(species) = row.get::<_, Option<String>>(18)? else {
+        return Ok(None);
+    };
+    let strategy_code: String = row.get(19)?;
+    let osmotic_strategy = OsmoticStrategy::parse(&strategy_code).ok_or_else(|| {
+        conversion(
+            19,
+            StorageError::CorruptRow {
+                what: format!("unknown osmotic strategy `{strategy_code}`"),
+            },
+        )
+    })?;
+    let tonicity = match row.get::<_, Option<String>>(20)? {
+        Some(code) => Some(tonicity_from_code(&code).map_err(|e| conversion(20, e))?),
+        None => None,
+    };
+    let movement_code: String = row.get(26)?;
+    Ok(Some(TonicityState {
+        species,
+        osmotic_strategy,
+        tonicity,
+        water_osmolality_mosm_kg: water_mosm_kg,
+        plasma_osmolality_mosm_kg: row.get(21)?,
+        isosmotic_band_mosm_kg: row.get::<_, Option<f64>>(22)?.unwrap_or(f64::NAN),
+        gradient_mosm_kg: row.get(23)?,
+        water_potential_difference_bar: row.get(24)?,
+        isosmotic_practical_salinity: row.get(25)?,
+        water_movement: water_movement_from_code(&movement_code).map_err(|e| conversion(26, e))?,
+        message: row.get::<_, Option<String>>(27)?.unwrap_or_default(),
+    }))
 }

@@ -6,6 +6,7 @@ use chrono::{DateTime, Utc};
 use serde::Serialize;
 
 use crate::seawater::Derived;
+use crate::species::TonicityState;
 
 /// Longest payload prefix kept with a rejection, bytes.
 pub const PAYLOAD_PREFIX_MAX_BYTES: usize = 256;
@@ -27,6 +28,8 @@ pub struct ReadingRow {
     pub temperature_c: f64,
     pub pressure_dbar: f64,
     pub derived: Derived,
+    /// The water against the tank's species, when the tank names one (and the assessment succeeded).
+    pub tonicity: Option<TonicityState>,
 }
 
 /// One message that was refused, kept so staff can see what a probe or a gateway is sending.

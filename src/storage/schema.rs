@@ -121,6 +121,54 @@ CREATE TABLE schedule_steps_done (
 );
 "#,
     },
+    Migration {
+        version: 3,
+        description: "tonicity with readings, alerts, acknowledgement requests",
+        sql: r#"
+ALTER TABLE readings ADD COLUMN species TEXT;
+ALTER TABLE readings ADD COLUMN osmotic_strategy TEXT;
+ALTER TABLE readings ADD COLUMN tonicity TEXT;
+ALTER TABLE readings ADD COLUMN plasma_osmolality_mosm_kg REAL;
+ALTER TABLE readings ADD COLUMN isosmotic_band_mosm_kg REAL;
+ALTER TABLE readings ADD COLUMN gradient_mosm_kg REAL;
+ALTER TABLE readings ADD COLUMN water_potential_difference_bar REAL;
+ALTER TABLE readings ADD COLUMN isosmotic_practical_salinity REAL;
+ALTER TABLE readings ADD COLUMN water_movement TEXT;
+ALTER TABLE readings ADD COLUMN tonicity_message TEXT;
+
+CREATE TABLE alerts (
+    id                  INTEGER PRIMARY KEY,
+    tank                TEXT    NOT NULL,
+    kind                TEXT    NOT NULL,
+    severity            TEXT    NOT NULL,
+    state               TEXT    NOT NULL,
+    raised_at_ms        INTEGER NOT NULL,
+    observed_at_ms      INTEGER NOT NULL,
+    last_notified_at_ms INTEGER,
+    notify_count        INTEGER NOT NULL,
+    cleared_at_ms       INTEGER,
+    ack_by              TEXT,
+    ack_at_ms           INTEGER,
+    ack_note            TEXT,
+    message             TEXT    NOT NULL,
+    value               REAL,
+    "limit"             REAL,
+    record_json         TEXT    NOT NULL
+);
+CREATE INDEX alerts_by_state ON alerts (state, tank);
+
+CREATE TABLE alert_ack_requests (
+    id              INTEGER PRIMARY KEY,
+    alert_id        INTEGER NOT NULL,
+    by              TEXT    NOT NULL,
+    note            TEXT,
+    requested_at_ms INTEGER NOT NULL,
+    handled_at_ms   INTEGER,
+    outcome         TEXT
+);
+CREATE INDEX alert_ack_requests_pending ON alert_ack_requests (handled_at_ms);
+"#,
+    },
 ];
 
 /// The schema version this halotank writes and reads.

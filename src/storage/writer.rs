@@ -19,6 +19,7 @@ use chrono::{DateTime, Utc};
 use rusqlite::{Connection, TransactionBehavior};
 use tokio::sync::{mpsc, oneshot};
 
+use super::alerts::{mark_ack_request_handled, upsert_alert};
 use super::error::StorageError;
 use super::insert::{
     insert_reading, insert_rejection, reading_problem, rejection_for_invalid, upsert_daemon_state,
@@ -26,6 +27,7 @@ use super::insert::{
 use super::retention::{self, RetentionReport, RetentionSettings};
 use super::rows::{DaemonStateRow, ReadingRow, RejectionRow};
 use super::schema::open_for_writing;
+use crate::alerts::AlertRecord;
 
 /// One thing to store. `A` is the caller's opaque ack token, handed back in a [`CommitReport`].
 #[derive(Debug)]
@@ -40,6 +42,14 @@ pub enum WriteItem<A> {
     AckOnly(A),
     /// The daemon's latest state; within one batch only the last is written. Carries no ack.
     DaemonState(DaemonStateRow),
+    /// An alert record after an event (upsert by id, in arrival order). Carries no ack.
+    Alert(AlertRecord),
+    /// An acknowledgement request from the command line has been handled, with its outcome.
+    AckRequestHandled {
+        id: i64,
+        handled_at: DateTime<Utc>,
+        outcome: String,
+    },
 }
 
 /// How the writer batches and retries. Defaults in [`WriterSettings::default`].
@@ -120,7 +130,8 @@ pub type WriterJoinHandle = JoinHandle<Result<WriterSummary, StorageError>>;
 pub type SpawnedWriter<A> = (WriterHandle<A>, mpsc::Receiver<CommitReport<A>>, WriterJoinHandle);
 
 enum Message<A> {
-    Item(WriteItem<A>),
+    /// Boxed: a reading row with its tonicity is far larger than the other messages.
+    Item(Box<WriteItem<A>>),
     Flush(oneshot::Sender<()>),
     Retention {
         now: DateTime<Utc>,
@@ -154,7 +165,7 @@ impl<A: Send + 'static> WriterHandle<A> {
     /// Queues an item, waiting while the queue is full.
     pub async fn send(&self, item: WriteItem<A>) -> Result<(), StorageError> {
         self.queue
-            .send(Message::Item(item))
+            .send(Message::Item(Box::new(item)))
             .await
             .map_err(|_| StorageError::WriterStopped)
     }
@@ -162,7 +173,7 @@ impl<A: Send + 'static> WriterHandle<A> {
     /// Queues an item from synchronous code (not from inside an async runtime).
     pub fn blocking_send(&self, item: WriteItem<A>) -> Result<(), StorageError> {
         self.queue
-            .blocking_send(Message::Item(item))
+            .blocking_send(Message::Item(Box::new(item)))
             .map_err(|_| StorageError::WriterStopped)
     }
 
@@ -265,6 +276,8 @@ struct Batch<A> {
     readings: Vec<ReadingRow>,
     rejections: Vec<RejectionRow>,
     state: Option<DaemonStateRow>,
+    alerts: Vec<AlertRecord>,
+    handled_requests: Vec<(i64, DateTime<Utc>, String)>,
     acks: Vec<A>,
     invalid_readings: u64,
     oldest: Option<Instant>,
@@ -276,6 +289,8 @@ impl<A> Default for Batch<A> {
             readings: Vec::new(),
             rejections: Vec::new(),
             state: None,
+            alerts: Vec::new(),
+            handled_requests: Vec::new(),
             acks: Vec::new(),
             invalid_readings: 0,
             oldest: None,
@@ -301,6 +316,12 @@ impl<A> Batch<A> {
             }
             WriteItem::AckOnly(ack) => self.acks.push(ack),
             WriteItem::DaemonState(state) => self.state = Some(state),
+            WriteItem::Alert(record) => self.alerts.push(record),
+            WriteItem::AckRequestHandled {
+                id,
+                handled_at,
+                outcome,
+            } => self.handled_requests.push((id, handled_at, outcome)),
         }
     }
 
@@ -317,7 +338,7 @@ impl<A> Batch<A> {
     }
 
     fn rows(&self) -> usize {
-        self.readings.len() + self.rejections.len()
+        self.readings.len() + self.rejections.len() + self.alerts.len() + self.handled_requests.len()
     }
 
     fn full(&self, flush_rows: usize) -> bool {
@@ -377,7 +398,7 @@ impl<A: Send + 'static> Writer<A> {
                     return Ok(self.summary);
                 }
                 Some(Message::Item(item)) => {
-                    self.batch.push(item, Instant::now());
+                    self.batch.push(*item, Instant::now());
                     if self.batch.full(self.settings.flush_rows) {
                         self.take_queued_items();
                         self.commit()?;
@@ -404,7 +425,7 @@ impl<A: Send + 'static> Writer<A> {
     fn take_queued_items(&mut self) {
         for _ in 0..self.settings.queue_capacity.max(1) {
             match self.inbox.try_recv() {
-                Ok(Message::Item(item)) => self.batch.push(item, Instant::now()),
+                Ok(Message::Item(item)) => self.batch.push(*item, Instant::now()),
                 Ok(other) => {
                     self.deferred = Some(other);
                     return;
@@ -505,6 +526,12 @@ fn write_batch<A>(conn: &mut Connection, batch: &Batch<A>) -> rusqlite::Result<T
     }
     if let Some(state) = &batch.state {
         upsert_daemon_state(&tx, state)?;
+    }
+    for record in &batch.alerts {
+        upsert_alert(&tx, record)?;
+    }
+    for (id, handled_at, outcome) in &batch.handled_requests {
+        mark_ack_request_handled(&tx, *id, *handled_at, outcome)?;
     }
     tx.commit()?;
     Ok(counts)

@@ -63,6 +63,7 @@ pub fn reading_full(
         temperature_c,
         pressure_dbar: 0.5,
         derived: derived(practical_salinity, osmolality_mosm_kg),
+        tonicity: None,
     }
 }
 
