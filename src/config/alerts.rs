@@ -4,6 +4,7 @@
 //! names its file, line and key.
 use std::collections::BTreeMap;
 
+use crate::alerts::delivery::DeliverySettings;
 use crate::alerts::{AlertSettings, AlertSettingsError, ResolvedAlertSettings};
 
 use super::error::Invalid;
@@ -16,6 +17,8 @@ pub struct AlertsConfig {
     pub global: AlertSettings,
     /// `[alerts.species.<id>]`, by species profile id.
     pub species: BTreeMap<String, AlertSettings>,
+    /// `[alerts.delivery]`: webhook and exec-hook delivery of alert events (none when absent).
+    pub delivery: Option<DeliverySettings>,
 }
 
 impl AlertsConfig {
@@ -31,6 +34,19 @@ impl AlertsConfig {
 pub(crate) fn parse_alerts(raw: Option<toml::Table>, path: &KeyPath) -> Result<AlertsConfig, Invalid> {
     let Some(mut table) = raw else {
         return Ok(AlertsConfig::default());
+    };
+    let delivery = match table.remove("delivery") {
+        None => None,
+        Some(value) => {
+            let key = path.key("delivery");
+            let settings: DeliverySettings = value
+                .try_into()
+                .map_err(|e: toml::de::Error| Invalid::new(key.clone(), e.message().to_string()))?;
+            settings
+                .validate()
+                .map_err(|e| Invalid::new(key, e.to_string()))?;
+            Some(settings)
+        }
     };
     let mut species = BTreeMap::new();
     if let Some(value) = table.remove("species") {
@@ -49,7 +65,11 @@ pub(crate) fn parse_alerts(raw: Option<toml::Table>, path: &KeyPath) -> Result<A
         }
     }
     let global = settings_from_table(table, path)?;
-    Ok(AlertsConfig { global, species })
+    Ok(AlertsConfig {
+        global,
+        species,
+        delivery,
+    })
 }
 
 /// One layer from a TOML table, checked on its own.

@@ -111,9 +111,9 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     ));
 
     let (alert_tx, alert_rx) = tokio::sync::mpsc::channel(ALERT_QUEUE);
-    // Delivery hook: pass `Some(sender)` here to forward every alert event to webhook/exec delivery
-    // (src/alerts/delivery/); see `alert_publisher` for the forwarding rules.
-    let delivery: Option<tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>> = None;
+    // Webhook and exec-hook delivery ([alerts.delivery]): a forwarder hands each event to the delivery
+    // queues without waiting; the record itself is persisted by the writer whatever delivery does.
+    let (delivery, delivery_task) = start_delivery(&config)?;
     let alert_publisher = tokio::spawn(alert_publisher::run_alert_publisher(
         alert_rx,
         mqtt.clone(),
@@ -236,6 +236,10 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     drop(writer);
     drop(alert_tx);
     let _ = alert_publisher.await;
+    if let Some(task) = delivery_task {
+        // The publisher has dropped its sender, so the forwarder drains and shuts delivery down.
+        let _ = task.await;
+    }
     let writer_result = tokio::task::spawn_blocking(move || writer_thread.join()).await;
     let acked: AckerSummary = acker.await.unwrap_or_default();
     if let Err(err) = mqtt.shutdown(MQTT_SHUTDOWN_TIMEOUT).await {
@@ -299,6 +303,34 @@ async fn emit_alert_events(
         }
     }
     Ok(())
+}
+
+/// How long delivery may take to drain its queues at shutdown.
+const DELIVERY_SHUTDOWN_TIMEOUT: Duration = Duration::from_secs(10);
+
+type DeliveryStart = (
+    Option<tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>>,
+    Option<tokio::task::JoinHandle<()>>,
+);
+
+/// Starts webhook/exec delivery when `[alerts.delivery]` is configured, with a forwarding task.
+fn start_delivery(config: &Config) -> anyhow::Result<DeliveryStart> {
+    let Some(settings) = &config.alerts.delivery else {
+        return Ok((None, None));
+    };
+    let (handle, workers) =
+        crate::alerts::delivery::spawn_delivery(settings).context("cannot start alert delivery")?;
+    let (tx, mut rx) = tokio::sync::mpsc::channel::<crate::alerts::AlertEvent>(ALERT_QUEUE);
+    let task = tokio::spawn(async move {
+        while let Some(event) = rx.recv().await {
+            handle.submit(&event);
+        }
+        let counters = handle.shutdown(DELIVERY_SHUTDOWN_TIMEOUT).await;
+        drop(handle);
+        let _ = workers.await;
+        tracing::info!(?counters, "alert delivery stopped");
+    });
+    Ok((Some(tx), Some(task)))
 }
 
 fn daemon_state_row(
