@@ -76,12 +76,17 @@ fn same_key_twice_in_one_batch_counts_one_duplicate() {
 fn batches_commit_when_flush_rows_is_reached_and_at_shutdown() {
     let db = temp_db();
     let (writer, mut reports, join) = spawn_writer::<u32>(&db.path, rows_only(3)).unwrap();
-    for i in 0..7u32 {
+    let send = |i: u32| {
         let row = reading("parr-a1", at(2024, 5, 14, 6, i, 0));
         writer.blocking_send(WriteItem::Reading(row, i)).unwrap();
-    }
+    };
+    // Rows are sent a batch at a time: with a backlog the writer's group commit would (rightly) take
+    // every queued row into one transaction.
+    (0..3).for_each(send);
     let first = reports.blocking_recv().unwrap();
+    (3..6).for_each(send);
     let second = reports.blocking_recv().unwrap();
+    send(6);
     assert_eq!((acks(&first), first.inserted), (vec![0, 1, 2], 3));
     assert_eq!((acks(&second), second.inserted), (vec![3, 4, 5], 3));
     assert_eq!(
