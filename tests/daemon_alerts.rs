@@ -30,13 +30,13 @@ const RULES_OFF: [&str; 10] = [
     "schedule_off",
 ];
 
-fn config_text(addr: std::net::SocketAddr, db: &Path) -> String {
+fn config_text(addr: std::net::SocketAddr, db: &Path, topic: &str, prefix: &str) -> String {
     let mut text = format!(
         "[site]\nname = \"Kelpie Point Hatchery\"\n[broker]\nhost = \"{}\"\nport = {}\nclient_id = \"{}\"\n\
-         [storage]\npath = \"{}\"\nflush_ms = 50\n\
+         [storage]\npath = \"{}\"\nflush_ms = 50\n[publish]\ntopic_prefix = \"{prefix}\"\n\
          [[tanks]]\nid = \"oyster-e1\"\nname = \"Oyster E1\"\nvolume_l = 400\nspecies = \"{SPECIES}\"\n\
          format = \"json\"\nconductivity_unit = \"mS/cm\"\n\
-         [tanks.topics]\ncombined = \"kelpie/oyster-e1/probe\"\n\
+         [tanks.topics]\ncombined = \"{topic}\"\n\
          [tanks.json_keys]\nconductivity = \"conductivity\"\ntemperature = \"temperature\"\ntime = \"time\"\n\
          [alerts.rules.salinity_tolerance]\nmin_duration_s = 0\nclear_after_s = 0\nrenotify_s = 0\n",
         addr.ip(),
@@ -52,6 +52,7 @@ fn config_text(addr: std::net::SocketAddr, db: &Path) -> String {
 
 struct Probe {
     peer: Peer,
+    topic: String,
     next: chrono::DateTime<Utc>,
 }
 
@@ -62,7 +63,7 @@ impl Probe {
             let time = self.next.to_rfc3339_opts(SecondsFormat::Millis, true);
             let payload = format!("{{\"conductivity\": {c}, \"temperature\": 15.0, \"time\": \"{time}\"}}");
             self.peer
-                .publish_acked("kelpie/oyster-e1/probe", payload.as_bytes(), false)
+                .publish_acked(&self.topic, payload.as_bytes(), false)
                 .await;
             self.next += TimeDelta::seconds(10);
         }
@@ -87,6 +88,26 @@ fn alerts(db: &Path, open: bool) -> Vec<halotank::alerts::AlertRecord> {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restart() {
+    let broker = EmbeddedBroker::start().await.unwrap();
+    excursion_scenario(broker.addr()).await;
+    broker.stop().await;
+}
+
+/// The same over Mosquitto (set `HALOTANK_TEST_MQTT=host:port`; `.ci/run` does).
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn out_of_tolerance_over_mosquitto() {
+    let Some(addr) = std::env::var("HALOTANK_TEST_MQTT")
+        .ok()
+        .and_then(|a| a.parse().ok())
+    else {
+        eprintln!("skipped: set HALOTANK_TEST_MQTT=host:port to run this test against Mosquitto");
+        return;
+    };
+    excursion_scenario(addr).await;
+}
+
+/// Drives one tank out of its species' tolerance and back, acknowledges, then restarts with an open alert.
+async fn excursion_scenario(addr: std::net::SocketAddr) {
     let library = SpeciesLibrary::embedded().unwrap();
     let profile = library.get(SPECIES).unwrap();
     let inside = (profile.salinity_optimum.min + profile.salinity_optimum.max) / 2.0;
@@ -97,18 +118,19 @@ async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restar
     };
     let dir = tempfile::tempdir().unwrap();
     let db = dir.path().join("e2e.sqlite3");
-    let broker = EmbeddedBroker::start().await.unwrap();
-    let text = config_text(broker.addr(), &db);
+    let topic = format!("{}/oyster-e1/probe", unique("kelpie"));
+    let text = config_text(addr, &db, &topic, &unique("halotank-e2e-alerts"));
     let cfg = config::parse(&text, &dir.path().join("halotank.toml")).unwrap();
 
     let (stop, stop_rx) = watch::channel(false);
     let daemon = tokio::spawn(halotank::daemon::run(cfg.clone(), stop_rx));
     tokio::time::sleep(Duration::from_millis(1500)).await;
     let prefix = cfg.publish.topic_prefix.clone();
-    let mut watcher = Peer::connect(broker.addr(), &unique("watcher"), true).await;
+    let mut watcher = Peer::connect(addr, &unique("watcher"), true).await;
     watcher.subscribe(&format!("{prefix}/#")).await;
     let mut probe = Probe {
-        peer: Peer::connect(broker.addr(), &unique("probe"), true).await,
+        peer: Peer::connect(addr, &unique("probe"), true).await,
+        topic,
         next: Utc::now() - TimeDelta::hours(1),
     };
 
@@ -187,14 +209,19 @@ async fn out_of_tolerance_raises_once_clears_waits_for_ack_and_survives_a_restar
     assert_eq!(alerts(&db, false).len(), 2);
     stop.send(true).unwrap();
     daemon.await.unwrap().unwrap();
-    broker.stop().await;
 }
 
 #[test]
 fn a_tank_naming_an_unknown_species_refuses_the_start() {
     let dir = tempfile::tempdir().unwrap();
     let addr: std::net::SocketAddr = "127.0.0.1:1883".parse().unwrap();
-    let text = config_text(addr, &dir.path().join("x.sqlite3")).replace(SPECIES, "kraken_larva");
+    let text = config_text(
+        addr,
+        &dir.path().join("x.sqlite3"),
+        "kelpie/e1/probe",
+        "halotank/kelpie",
+    )
+    .replace(SPECIES, "kraken_larva");
     let cfg = config::parse(&text, &dir.path().join("halotank.toml")).unwrap();
     let err = halotank::daemon::tank_profiles(&cfg).unwrap_err();
     let shown = format!("{err:#}");
