@@ -123,8 +123,9 @@ pub fn run(args: ConvertArgs) -> anyhow::Result<ExitCode> {
     };
     let mode = args.probe_mode();
     let conversion = if let Some(sp) = args.salinity {
-        let (in_situ_ms_cm, derived) = expected_conductivity(sp, temperature_c, args.pressure)
-            .with_context(|| format!("cannot find the conductivity of salinity {sp}"))?;
+        let (in_situ_ms_cm, derived) =
+            expected_conductivity(sp, temperature_c, args.pressure, args.gauge_pressure)
+                .with_context(|| format!("cannot find the conductivity of salinity {sp}"))?;
         let reported_ms_cm = mode.reported_ms_cm(in_situ_ms_cm, temperature_c)?;
         Conversion {
             conductivity: args.unit.from_ms_cm(reported_ms_cm),
@@ -133,7 +134,7 @@ pub fn run(args: ConvertArgs) -> anyhow::Result<ExitCode> {
             conductivity_ms_cm: in_situ_ms_cm,
             temperature_c,
             pressure_dbar: args.pressure,
-            derived: with_gauge_pressure(derived, args.gauge_pressure),
+            derived,
         }
     } else {
         let Some(reported) = args.conductivity else {
@@ -162,11 +163,6 @@ pub fn run(args: ConvertArgs) -> anyhow::Result<ExitCode> {
         OutputFormat::Text => write_text(&mut out, &conversion, args.salinity.is_some())?,
     }
     Ok(ExitCode::SUCCESS)
-}
-
-fn with_gauge_pressure(mut derived: Derived, gauge_pressure_bar: f64) -> Derived {
-    derived.water_potential_bar = derived.solute_potential_bar + gauge_pressure_bar;
-    derived
 }
 
 fn write_text(out: &mut impl Write, c: &Conversion, inverse: bool) -> io::Result<()> {

@@ -97,8 +97,14 @@ pub fn expected_conductivity(
     practical_salinity: f64,
     temperature_c: f64,
     pressure_dbar: f64,
+    gauge_pressure_bar: f64,
 ) -> Result<(f64, Derived), ScienceError> {
-    let derived = derive_from_salinity(practical_salinity, temperature_c, pressure_dbar, 0.0)?;
+    let derived = derive_from_salinity(
+        practical_salinity,
+        temperature_c,
+        pressure_dbar,
+        gauge_pressure_bar,
+    )?;
     let c = conductivity_from_practical_salinity(practical_salinity, temperature_c, pressure_dbar)?;
     Ok((c, derived))
 }
