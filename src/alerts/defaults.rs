@@ -59,6 +59,12 @@ pub const FREEZING_MARGIN_C: f64 = 0.5;
 /// ... and it clears this much further above it, °C.
 pub const FREEZING_HYSTERESIS_C: f64 = 0.2;
 
+/// A tank is off its acclimation schedule when its salinity is further than this from the setpoint, SP
+/// (while a step is overdue, from anywhere between that step's setpoint and the current one).
+pub const SCHEDULE_BAND_SP: f64 = 0.5;
+/// Whether a critical alert on a tank pauses its running schedule (staff resume it by hand).
+pub const SCHEDULE_PAUSE_ON_CRITICAL: bool = false;
+
 /// Per-rule defaults: (enabled, min_duration_s, renotify_s, clear_after_s).
 pub const fn rule(kind: AlertKind) -> (bool, u64, u64, u64) {
     match kind {

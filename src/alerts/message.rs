@@ -111,10 +111,11 @@ fn describe(kind: AlertKind, obs: &Observation) -> String {
             "practical salinity is {deviation_sp:+.2} SP off the acclimation schedule \
              (target now SP {target_sp:.2})."
         ),
-        Observation::StepDue { step, target_sp, due_at_ms } => format!(
-            "acclimation step {step} to SP {target_sp:.2} is due at {}.",
-            time_text(due_at_ms)
-        ),
+        Observation::StepDue { step, target_sp, due_at_ms, action } => {
+            let todo = action.text();
+            let todo = if todo.is_empty() { String::new() } else { format!(": {todo}") };
+            format!("acclimation step {step} to SP {target_sp:.2} is due at {}{todo}.", time_text(due_at_ms))
+        }
         Observation::ScheduleOk | Observation::None => format!("{}.", kind.as_str().replace('_', " ")),
     }
 }

@@ -36,6 +36,7 @@ pub use event::AlertEvent;
 pub use kind::{AlertId, AlertKey, AlertKind, Severity};
 pub use lifecycle::{AckError, Acknowledgement, AlertRecord, AlertState};
 pub use limits::{AlertLimits, Bounds, LimitsError, RateLimit, RateOfChange, SlowerBelow};
+pub use observation::StepAction;
 pub use reading::AlertReading;
 pub use rules::schedule::ScheduleSignal;
 pub use settings::{AlertSettings, AlertSettingsError, ResolvedAlertSettings, RuleLayer, RuleSettings};

@@ -70,9 +70,43 @@ pub enum Observation {
         step: u32,
         target_sp: f64,
         due_at_ms: i64,
+        action: StepAction,
     },
     /// Back on schedule, or the step is done.
     ScheduleOk,
+}
+
+/// The quantities of one acclimation step, where its method uses them (for the step-due message).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct StepAction {
+    /// Tank water to drain, litres.
+    pub drain_l: Option<f64>,
+    /// Water to add back, litres.
+    pub add_l: Option<f64>,
+    /// Dry sea salt, kg.
+    pub salt_kg: Option<f64>,
+    /// Inflow to set, L/min.
+    pub flow_l_min: Option<f64>,
+}
+
+impl StepAction {
+    /// The quantities as text: `drain 120 L, add 120 L, 3.50 kg salt, flow 2.0 L/min` (empty when none).
+    pub fn text(&self) -> String {
+        let mut parts = Vec::new();
+        if let Some(v) = self.drain_l {
+            parts.push(format!("drain {v:.0} L"));
+        }
+        if let Some(v) = self.add_l {
+            parts.push(format!("add {v:.0} L"));
+        }
+        if let Some(v) = self.salt_kg {
+            parts.push(format!("{v:.2} kg salt"));
+        }
+        if let Some(v) = self.flow_l_min {
+            parts.push(format!("flow {v:.1} L/min"));
+        }
+        parts.join(", ")
+    }
 }
 
 impl Observation {

@@ -59,6 +59,10 @@ fn invalid(key: &str, message: impl Into<String>) -> AlertSettingsError {
     }
 }
 
+fn any_bool(_key: &str, _v: bool) -> Result<(), AlertSettingsError> {
+    Ok(())
+}
+
 fn positive(key: &str, v: f64) -> Result<(), AlertSettingsError> {
     if v.is_finite() && v > 0.0 {
         Ok(())
@@ -212,6 +216,10 @@ scalar_settings! {
     freezing_margin_c: f64 = defaults::FREEZING_MARGIN_C, non_negative;
     /// Near-freezing clears this much further above, °C.
     freezing_hysteresis_c: f64 = defaults::FREEZING_HYSTERESIS_C, positive;
+    /// A tank is off its acclimation schedule beyond this distance from the setpoint, SP.
+    schedule_band_sp: f64 = defaults::SCHEDULE_BAND_SP, positive;
+    /// Pause the tank's running schedule when a critical alert is raised on it.
+    schedule_pause_on_critical: bool = defaults::SCHEDULE_PAUSE_ON_CRITICAL, any_bool;
 }
 
 /// One rule's settings as written; every key optional.

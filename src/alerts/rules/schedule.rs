@@ -1,12 +1,13 @@
 //! The acclimation-schedule hook: signals the planner sends, and how they map onto alert conditions.
 //!
-//! The planner (a later issue) decides when a tank is off its schedule or a step is due; the engine only
-//! gives those signals hysteresis-free conditions with the usual minimum duration, re-notify and lifecycle.
+//! The schedule tracker ([`crate::schedule::tracker`]) decides when a tank is off its schedule or a step is
+//! due; the engine only gives those signals hysteresis-free conditions with the usual minimum duration,
+//! re-notify and lifecycle.
 use chrono::{DateTime, Utc};
 
 use crate::alerts::detector::Level;
 use crate::alerts::kind::AlertKind;
-use crate::alerts::observation::Observation;
+use crate::alerts::observation::{Observation, StepAction};
 
 /// What the acclimation planner reports about a tank.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -28,6 +29,8 @@ pub enum ScheduleSignal {
         target_sp: f64,
         /// When it is due.
         due_at: DateTime<Utc>,
+        /// What the step asks staff to do.
+        action: StepAction,
     },
     /// The due step has been carried out (or the schedule ended).
     StepDone,
@@ -53,6 +56,7 @@ impl ScheduleSignal {
                 step,
                 target_sp,
                 due_at,
+                action,
             } => (
                 AlertKind::ScheduleStepDue,
                 Level::Raise,
@@ -60,6 +64,7 @@ impl ScheduleSignal {
                     step,
                     target_sp,
                     due_at_ms: due_at.timestamp_millis(),
+                    action,
                 },
             ),
             Self::StepDone => (AlertKind::ScheduleStepDue, Level::Clear, Observation::ScheduleOk),

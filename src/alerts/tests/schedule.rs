@@ -32,14 +32,19 @@ fn step_due_is_info_and_clears_when_done() {
         step: 3,
         target_sp: 18.0,
         due_at: t(600),
+        action: StepAction {
+            drain_l: Some(120.0),
+            add_l: Some(120.0),
+            ..StepAction::default()
+        },
     };
     let events = rig.engine.on_schedule(rig.slot, due, t(600));
     assert_eq!(names(&events), vec![("raised", AlertKind::ScheduleStepDue)]);
     assert_eq!(events[0].severity(), Severity::Info);
     let due_text = t(600).to_rfc3339_opts(chrono::SecondsFormat::Secs, true);
-    assert!(events[0]
-        .message()
-        .contains(&format!("step 3 to SP 18.00 is due at {due_text}")));
+    assert!(events[0].message().contains(&format!(
+        "step 3 to SP 18.00 is due at {due_text}: drain 120 L, add 120 L."
+    )));
     let events = rig.engine.on_schedule(rig.slot, ScheduleSignal::StepDone, t(900));
     assert_eq!(names(&events), vec![("cleared", AlertKind::ScheduleStepDue)]);
     assert_eq!(rig.engine.open_alerts().count(), 0);
