@@ -160,6 +160,17 @@ fn schedule_round_trip() {
         text.contains("1 of 3 steps done") && text.contains("expected finish") && text.contains("caution:")
     );
 
+    // `status` shows the open schedule's progress too.
+    let status = ok(&["status", "--db", d]);
+    assert!(
+        status.contains(&format!(
+            "{id} on tank parr-a1: active, step 1 of 3 done (on time)"
+        )) && status.contains("next: step 2 to SP"),
+        "{status}"
+    );
+    let status = json(&["status", "--db", d, "--format", "json"]);
+    assert_eq!(status["schedules"][0]["steps_done"], 1);
+
     assert!(ok(&["schedule", "pause", &id_s, "--db", d]).contains("paused"));
     assert!(refused(&["schedule", "step-done", &id_s, "--db", d]).contains("resume it first"));
     assert!(refused(&["schedule", "pause", &id_s, "--db", d]).contains("is paused"));

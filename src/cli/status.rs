@@ -1,5 +1,5 @@
-//! `halotank status`: each tank's latest reading and its age, stored counts, rejections by reason, and the
-//! daemon's broker link as it last recorded it.
+//! `halotank status`: each tank's latest reading and its age, stored counts, the open acclimation
+//! schedules' progress, rejections by reason, and the daemon's broker link as it last recorded it.
 use std::fmt::Write as _;
 use std::io::{self, Write};
 use std::path::PathBuf;
@@ -8,9 +8,10 @@ use std::process::ExitCode;
 use chrono::{DateTime, SecondsFormat, Utc};
 use serde::Serialize;
 
+use crate::schedule::{progress, Progress};
 use crate::seawater::Derived;
 use crate::species::TonicityState;
-use crate::storage::{Reader, ReasonCount, StorageError, SCHEMA_VERSION};
+use crate::storage::{Reader, ReasonCount, ScheduleStore, StorageError, SCHEMA_VERSION};
 
 /// The daemon state is called stale when older than this, s (the daemon rewrites it every few seconds).
 pub const DAEMON_STATE_STALE_AFTER_S: f64 = 60.0;
@@ -48,6 +49,8 @@ pub struct StatusReport {
     pub schema_version: u32,
     pub generated_at: String,
     pub tanks: Vec<TankStatus>,
+    /// Progress of every open (active or paused) schedule.
+    pub schedules: Vec<Progress>,
     pub rejections: RejectionSummary,
     /// `null` when the daemon never wrote its state to this database.
     pub daemon: Option<DaemonStatus>,
@@ -131,7 +134,14 @@ pub fn run(args: StatusArgs) -> anyhow::Result<ExitCode> {
 }
 
 /// Reads the database and measures ages against `now`.
-pub fn build_report(args: &StatusArgs, now: DateTime<Utc>) -> Result<StatusReport, StorageError> {
+pub fn build_report(args: &StatusArgs, now: DateTime<Utc>) -> anyhow::Result<StatusReport> {
+    let mut report = readings_report(args, now)?;
+    let store = ScheduleStore::open_existing(&args.db)?;
+    report.schedules = store.open_schedules()?.iter().map(|s| progress(s, now)).collect();
+    Ok(report)
+}
+
+fn readings_report(args: &StatusArgs, now: DateTime<Utc>) -> Result<StatusReport, StorageError> {
     let reader = Reader::open(&args.db)?;
     reader.snapshot(|reader| {
         let latest = reader.latest_per_tank()?;
@@ -186,6 +196,7 @@ pub fn build_report(args: &StatusArgs, now: DateTime<Utc>) -> Result<StatusRepor
             schema_version: SCHEMA_VERSION,
             generated_at: stamp(now),
             tanks,
+            schedules: Vec::new(),
             rejections,
             daemon,
         })
@@ -249,6 +260,7 @@ pub fn render_text(report: &StatusReport) -> String {
         }
     }
     let _ = writeln!(s);
+    render_schedules(&mut s, &report.schedules);
     let _ = writeln!(s, "Rejections stored: {}", report.rejections.total);
     for reason in &report.rejections.by_reason {
         let _ = writeln!(
@@ -304,6 +316,42 @@ pub fn render_text(report: &StatusReport) -> String {
          replace a tank's own life-support alarm."
     );
     s
+}
+
+/// The open schedules: step n of m, ahead or behind, setpoint now, next step, expected finish.
+fn render_schedules(s: &mut String, schedules: &[Progress]) {
+    if schedules.is_empty() {
+        let _ = writeln!(s, "Schedules: none open");
+        let _ = writeln!(s);
+        return;
+    }
+    let _ = writeln!(s, "Schedules:");
+    for p in schedules {
+        let pace = match p.steps_ahead {
+            0 => "on time".to_owned(),
+            n if n > 0 => format!("{n} step(s) ahead"),
+            n => format!("{} step(s) behind", -n),
+        };
+        let _ = writeln!(
+            s,
+            "  {} on tank {}: {}, step {} of {} done ({pace}), setpoint now SP {:.2}",
+            p.schedule_id, p.tank_id, p.state, p.steps_done, p.steps_total, p.setpoint_practical_salinity
+        );
+        if let Some(next) = &p.next_step {
+            let when = if next.overdue { "overdue since" } else { "due" };
+            let _ = writeln!(
+                s,
+                "    next: step {} to SP {:.2} {when} {}",
+                next.step,
+                next.setpoint_practical_salinity,
+                stamp(next.due)
+            );
+        }
+        if let Some(finish) = p.expected_finish {
+            let _ = writeln!(s, "    expected finish {}", stamp(finish));
+        }
+    }
+    let _ = writeln!(s);
 }
 
 fn reason_status(reason: ReasonCount) -> ReasonStatus {

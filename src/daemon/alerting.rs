@@ -6,6 +6,7 @@ use chrono::{DateTime, Utc};
 use super::alert_limits::limits_for_tank;
 use crate::alerts::{
     AckError, AlertEngine, AlertEvent, AlertId, AlertReading, AlertRecord, AlertRef, RestoreReport,
+    ScheduleSignal,
 };
 use crate::config::Config;
 use crate::species::SpeciesProfile;
@@ -66,6 +67,19 @@ impl Alerting {
             events.extend(self.engine.on_reading(slot, &reading, now));
         }
         events
+    }
+
+    /// A signal of the schedule tracker for one tank (unknown tanks are ignored).
+    pub fn on_schedule(
+        &mut self,
+        tank_id: &str,
+        signal: ScheduleSignal,
+        now: DateTime<Utc>,
+    ) -> Vec<AlertEvent> {
+        match self.engine.tank_slot(tank_id) {
+            Some(slot) => self.engine.on_schedule(slot, signal, now),
+            None => Vec::new(),
+        }
     }
 
     /// Advances the clock (probe-stale, re-notification).

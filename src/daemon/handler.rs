@@ -1,5 +1,5 @@
 //! One MQTT message in, one storage item out: ingest, derive, assess tonicity against the tank's species,
-//! and count. No I/O but logging.
+//! check the tank against its acclimation schedule, and count. No I/O but logging.
 use chrono::{DateTime, Utc};
 
 use super::acker::Pending;
@@ -9,6 +9,7 @@ use super::tank_state::TankState;
 use crate::config::Config;
 use crate::ingest::{AcceptedReading, IngestOutcome, Ingestor, LogDecision, LogLimiter, Rejection};
 use crate::mqtt::AckToken;
+use crate::schedule::{ScheduleTracker, SetpointMessage, TrackerAction};
 use crate::seawater::derive::derive_from_conductivity;
 use crate::species::{tonicity, SpeciesProfile};
 use crate::storage::{ReadingRow, RejectionRow, WriteItem};
@@ -30,6 +31,8 @@ pub struct MessageHandler {
     /// Each tank's effective species profile, by tank index (`None`: the tank names no species).
     profiles: Vec<Option<SpeciesProfile>>,
     alerting: Alerting,
+    /// The open acclimation schedules (off-schedule checks on each reading; progress in the state).
+    tracker: ScheduleTracker,
     /// Alert events of handled messages, taken by the daemon with [`MessageHandler::take_alert_events`].
     events: Vec<crate::alerts::AlertEvent>,
     counters: Counters,
@@ -39,12 +42,18 @@ pub struct MessageHandler {
 impl MessageHandler {
     /// `profiles[i]` is the effective species profile of `config.tanks[i]` (see
     /// [`SpeciesLibrary::profile_for_tank`](crate::species::SpeciesLibrary::profile_for_tank)).
-    pub fn new(config: &Config, profiles: Vec<Option<SpeciesProfile>>, alerting: Alerting) -> Self {
+    pub fn new(
+        config: &Config,
+        profiles: Vec<Option<SpeciesProfile>>,
+        alerting: Alerting,
+        tracker: ScheduleTracker,
+    ) -> Self {
         Self {
             ingestor: Ingestor::new(config),
             tank_names: config.tanks.iter().map(|t| t.name.clone()).collect(),
             profiles,
             alerting,
+            tracker,
             events: Vec::new(),
             counters: Counters::default(),
             log_limit: LogLimiter::new(chrono::Duration::seconds(REJECTION_LOG_INTERVAL_S)),
@@ -58,6 +67,36 @@ impl MessageHandler {
     /// The alert engine (for clock ticks and acknowledgements).
     pub fn alerting_mut(&mut self) -> &mut Alerting {
         &mut self.alerting
+    }
+
+    /// The schedule tracker (for the daemon's database polls).
+    pub fn tracker_mut(&mut self) -> &mut ScheduleTracker {
+        &mut self.tracker
+    }
+
+    pub fn tracker(&self) -> &ScheduleTracker {
+        &self.tracker
+    }
+
+    /// Feeds the tracker's alert signals to the engine (their events join [`Self::take_alert_events`]);
+    /// returns the setpoints to publish and the schedules to pause.
+    pub fn apply_tracker_actions(
+        &mut self,
+        actions: Vec<TrackerAction>,
+        now: DateTime<Utc>,
+    ) -> (Vec<SetpointMessage>, Vec<(i64, String)>) {
+        let (mut setpoints, mut pauses) = (Vec::new(), Vec::new());
+        for action in actions {
+            match action {
+                TrackerAction::Setpoint(message) => setpoints.push(message),
+                TrackerAction::Pause { schedule_id, tank_id } => pauses.push((schedule_id, tank_id)),
+                TrackerAction::Signal { tank_id, signal } => {
+                    let events = self.alerting.on_schedule(&tank_id, signal, now);
+                    self.events.extend(events);
+                }
+            }
+        }
+        (setpoints, pauses)
     }
 
     /// The alert events raised by the messages handled since the last call.
@@ -81,10 +120,18 @@ impl MessageHandler {
                     // The message's arrival time is the engine's clock for the readings it carries.
                     let events = self.alerting.on_rows(&rows, received_at);
                     self.events.extend(events);
-                    let state = rows.iter().max_by_key(|r| r.time).and_then(|row| {
+                    let newest = rows.iter().max_by_key(|r| r.time);
+                    if let Some(row) = newest {
+                        let check = self
+                            .tracker
+                            .on_reading(&row.tank_id, row.derived.practical_salinity);
+                        self.apply_tracker_actions(check.into_iter().collect(), received_at);
+                    }
+                    let state = newest.and_then(|row| {
                         let index = readings.first().map(|r| r.tank_index)?;
                         let name = self.tank_names.get(index)?;
-                        Some((row.time, TankState::from_row(name, row)))
+                        let schedule = self.tracker.progress(&row.tank_id).cloned();
+                        Some((row.time, TankState::from_row(name, row, schedule)))
                     });
                     WriteItem::Readings(rows, Pending { ack, state })
                 }

@@ -10,6 +10,12 @@
 //! [`ALERT_TICK`] the loop ticks the engine and applies acknowledgement requests the CLI left in the
 //! database (`alert_ack_requests`).
 //!
+//! Schedules: every [`ALERT_TICK`] the loop also reads the open schedules back from the database
+//! ([`schedule_sync`]), so one started or marked with `halotank schedule` is tracked within seconds; the
+//! tracker's setpoints go to the setpoint publisher (retained `<prefix>/tank/<id>/setpoint`), its
+//! step-due and off-schedule signals to the alert engine, and each reading is checked against its tank's
+//! setpoint in the handler.
+//!
 //! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
 //! ignored messages travel through the writer too, so acks leave in the order messages arrived.
 pub mod acker;
@@ -19,6 +25,8 @@ pub mod alerting;
 pub mod connection;
 pub mod counters;
 pub mod handler;
+pub mod schedule_sync;
+pub mod setpoint_publisher;
 pub mod shutdown;
 pub mod tank_state;
 
@@ -50,6 +58,8 @@ const OUTAGE_WARNING: chrono::TimeDelta = chrono::TimeDelta::seconds(60);
 const ALERT_TICK: Duration = Duration::from_secs(2);
 /// Capacity of the queue from the ingest loop to the alert publisher.
 const ALERT_QUEUE: usize = 1024;
+/// Capacity of the queue from the ingest loop to the setpoint publisher.
+const SETPOINT_QUEUE: usize = 1024;
 /// How long a graceful MQTT shutdown may take.
 const MQTT_SHUTDOWN_TIMEOUT: Duration = Duration::from_secs(10);
 
@@ -121,7 +131,19 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         alerting.open_alerts(),
         delivery,
     ));
-    let mut handler = MessageHandler::new(&config, profiles, alerting);
+    let tracker = schedule_sync::tracker_for(&config)?;
+    let mut schedules = schedule_sync::ScheduleSync::open(&config.storage.path)?;
+    let (setpoint_tx, setpoint_rx) = tokio::sync::mpsc::channel(SETPOINT_QUEUE);
+    let setpoint_publisher = tokio::spawn(setpoint_publisher::run_setpoint_publisher(
+        setpoint_rx,
+        mqtt.clone(),
+        config.publish.topic_prefix.clone(),
+    ));
+    let mut handler = MessageHandler::new(&config, profiles, alerting, tracker);
+    // Pick up the schedules stored before this start at once: the setpoint continues where it stands.
+    let now = Utc::now();
+    let actions = schedules.poll(handler.tracker_mut(), now);
+    apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, actions, now);
     let mut alert_tick = tokio::time::interval(ALERT_TICK);
     let mut handled_requests: std::collections::HashSet<i64> = std::collections::HashSet::new();
     let mut link = mqtt.connection_state();
@@ -154,13 +176,18 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                     break;
                 }
                 let events = handler.take_alert_events();
+                let pauses = schedule_sync::pauses_for_critical(handler.tracker(), &events);
+                apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, pauses, message.received_at);
                 if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
                     break;
                 }
             }
             _ = alert_tick.tick() => {
                 let now = Utc::now();
-                let mut events = handler.alerting_mut().on_tick(now);
+                let actions = schedules.poll(handler.tracker_mut(), now);
+                apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, actions, now);
+                let mut events = handler.take_alert_events();
+                events.extend(handler.alerting_mut().on_tick(now));
                 match reader.pending_ack_requests() {
                     Ok(requests) => {
                         for request in requests {
@@ -186,6 +213,8 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                     }
                     Err(err) => tracing::warn!(error = %err, "cannot read acknowledgement requests"),
                 }
+                let pauses = schedule_sync::pauses_for_critical(handler.tracker(), &events);
+                apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, pauses, now);
                 if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
                     break;
                 }
@@ -235,7 +264,10 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     }
     drop(writer);
     drop(alert_tx);
+    drop(setpoint_tx);
     let _ = alert_publisher.await;
+    let setpoints = setpoint_publisher.await.unwrap_or_default();
+    tracing::info!(?setpoints, "setpoint publisher stopped");
     if let Some(task) = delivery_task {
         // The publisher has dropped its sender, so the forwarder drains and shuts delivery down.
         let _ = task.await;
@@ -285,6 +317,29 @@ pub fn tank_profiles(config: &Config) -> anyhow::Result<Vec<Option<SpeciesProfil
             })
         })
         .collect()
+}
+
+/// Hands the tracker's signals to the engine, its setpoints to the publisher (never waiting: a full queue
+/// drops the message, and the next change or restart republishes) and its pauses to the database.
+fn apply_schedule_actions(
+    handler: &mut MessageHandler,
+    schedules: &mut schedule_sync::ScheduleSync,
+    setpoints: &tokio::sync::mpsc::Sender<crate::schedule::SetpointMessage>,
+    actions: Vec<crate::schedule::TrackerAction>,
+    now: chrono::DateTime<Utc>,
+) {
+    if actions.is_empty() {
+        return;
+    }
+    let (messages, pauses) = handler.apply_tracker_actions(actions, now);
+    for message in messages {
+        if setpoints.try_send(message).is_err() {
+            tracing::warn!("setpoint publisher queue full; setpoint not published");
+        }
+    }
+    for (schedule_id, tank_id) in pauses {
+        schedules.pause(schedule_id, &tank_id, now);
+    }
 }
 
 /// Persists each event's record (through the one writer) and hands the event to the alert publisher.

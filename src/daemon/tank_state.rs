@@ -2,6 +2,7 @@
 use chrono::{DateTime, SecondsFormat, Utc};
 use serde::Serialize;
 
+use crate::schedule::Progress;
 use crate::seawater::Derived;
 use crate::species::TonicityState;
 use crate::storage::ReadingRow;
@@ -21,11 +22,13 @@ pub struct TankState {
     pub derived: Derived,
     /// The water against the tank's species (`null` when the tank names no species).
     pub tonicity: Option<TonicityState>,
+    /// The progress of the tank's open acclimation schedule (`null` when it has none).
+    pub schedule: Option<Progress>,
 }
 
 impl TankState {
-    /// The state a committed reading gives its tank.
-    pub fn from_row(name: &str, row: &ReadingRow) -> Self {
+    /// The state a committed reading gives its tank, with its schedule's progress.
+    pub fn from_row(name: &str, row: &ReadingRow, schedule: Option<Progress>) -> Self {
         Self {
             tank: row.tank_id.clone(),
             name: name.to_string(),
@@ -35,6 +38,7 @@ impl TankState {
             pressure_dbar: row.pressure_dbar,
             derived: row.derived,
             tonicity: row.tonicity.clone(),
+            schedule,
         }
     }
 }
