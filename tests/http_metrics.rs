@@ -33,7 +33,10 @@ async fn metrics_until(addr: SocketAddr, what: &str, done: impl Fn(&Exposition) 
         if done(&m) {
             return m;
         }
-        assert!(tokio::time::Instant::now() < deadline, "timed out waiting for {what}: {m:?}");
+        assert!(
+            tokio::time::Instant::now() < deadline,
+            "timed out waiting for {what}: {m:?}"
+        );
         tokio::time::sleep(Duration::from_millis(200)).await;
     }
 }
@@ -68,16 +71,29 @@ async fn counters_move_when_readings_arrive_through_the_daemon() {
     let first = json_payload(36.0, 12.0, past_time(-60_000));
     let deadline = tokio::time::Instant::now() + DEADLINE;
     while readings_count(&site.db) < 1 {
-        assert!(tokio::time::Instant::now() < deadline, "the daemon never stored a reading");
-        probe.publish_acked(&site.json_topic(), first.as_bytes(), false).await;
+        assert!(
+            tokio::time::Instant::now() < deadline,
+            "the daemon never stored a reading"
+        );
+        probe
+            .publish_acked(&site.json_topic(), first.as_bytes(), false)
+            .await;
         tokio::time::sleep(Duration::from_millis(200)).await;
     }
     // Nine more readings, then one payload that is not JSON.
     for i in 1..10 {
-        let payload = json_payload(36.0 + 0.1 * f64::from(i), 12.0, past_time(-60_000 + i64::from(i) * 1000));
-        probe.publish_acked(&site.json_topic(), payload.as_bytes(), false).await;
+        let payload = json_payload(
+            36.0 + 0.1 * f64::from(i),
+            12.0,
+            past_time(-60_000 + i64::from(i) * 1000),
+        );
+        probe
+            .publish_acked(&site.json_topic(), payload.as_bytes(), false)
+            .await;
     }
-    probe.publish_acked(&site.json_topic(), b"not a reading", false).await;
+    probe
+        .publish_acked(&site.json_topic(), b"not a reading", false)
+        .await;
 
     let m = metrics_until(addr, "10 readings and 1 rejection counted", |m| {
         m.value("halotank_readings_accepted_total", &[]) == Some(10.0) && rejected_total(m) == 1.0
@@ -89,7 +105,9 @@ async fn counters_move_when_readings_arrive_through_the_daemon() {
         .expect("the tank's last-reading age");
     // The newest reading's own time is past_time(9 s - 60 s): one hour less 51 s before the test began.
     assert!((3549.0..3800.0).contains(&age), "{age}");
-    let commits = m.value("halotank_writer_commit_latency_seconds_count", &[]).unwrap();
+    let commits = m
+        .value("halotank_writer_commit_latency_seconds_count", &[])
+        .unwrap();
     assert!(commits >= 1.0, "{commits}");
     assert!(m.value("halotank_writer_batch_size_rows_sum", &[]).unwrap() >= 11.0);
     assert_eq!(m.value("halotank_mqtt_connected", &[]), Some(1.0));
@@ -101,13 +119,16 @@ async fn counters_move_when_readings_arrive_through_the_daemon() {
         .collect();
     assert_eq!(reasons.len(), 1, "{reasons:?}");
     let stored = rejections_by_reason(&site.db);
-    assert_eq!(stored.get(reasons[0]), Some(&1), "the same reason as stored: {stored:?}");
+    assert_eq!(
+        stored.get(reasons[0]),
+        Some(&1),
+        "the same reason as stored: {stored:?}"
+    );
 
-    let (ready, tanks) = tokio::task::spawn_blocking(move || {
-        (get(addr, "/readyz", &[]), get(addr, "/api/tanks", &[]))
-    })
-    .await
-    .unwrap();
+    let (ready, tanks) =
+        tokio::task::spawn_blocking(move || (get(addr, "/readyz", &[]), get(addr, "/api/tanks", &[])))
+            .await
+            .unwrap();
     assert_eq!(ready.status, 200, "{}", ready.body);
     let tanks = tanks.json();
     let card = tanks["tanks"]
@@ -119,14 +140,27 @@ async fn counters_move_when_readings_arrive_through_the_daemon() {
         .clone();
     let want = expected_derived(36.9, 12.0);
     let sp = card["latest"]["practical_salinity"].as_f64().unwrap();
-    assert!((sp - want.practical_salinity).abs() < 1e-9, "{sp} vs {}", want.practical_salinity);
+    assert!(
+        (sp - want.practical_salinity).abs() < 1e-9,
+        "{sp} vs {}",
+        want.practical_salinity
+    );
 
     probe.disconnect().await;
     stop.send_replace(true);
-    let summary = tokio::time::timeout(DEADLINE, daemon).await.unwrap().unwrap().unwrap();
+    let summary = tokio::time::timeout(DEADLINE, daemon)
+        .await
+        .unwrap()
+        .unwrap()
+        .unwrap();
     assert_eq!(summary.readings_stored, 10);
     // The server stopped with the daemon.
-    let gone = tokio::task::spawn_blocking(move || std::net::TcpStream::connect(addr)).await.unwrap();
-    assert!(gone.is_err(), "the HTTP port still accepts after the daemon stopped");
+    let gone = tokio::task::spawn_blocking(move || std::net::TcpStream::connect(addr))
+        .await
+        .unwrap();
+    assert!(
+        gone.is_err(),
+        "the HTTP port still accepts after the daemon stopped"
+    );
     broker.stop().await;
 }

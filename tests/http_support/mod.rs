@@ -47,7 +47,11 @@ impl Reply {
     /// Asserts the error shape `{"error": {"status", "message"}}` with this status; returns the message.
     pub fn error(&self, status: u16) -> String {
         assert_eq!(self.status, status, "{}", self.body);
-        assert!(self.content_type.starts_with("application/json"), "{}", self.content_type);
+        assert!(
+            self.content_type.starts_with("application/json"),
+            "{}",
+            self.content_type
+        );
         let v = self.json();
         assert_eq!(v["error"]["status"], status, "{v}");
         let message = v["error"]["message"].as_str().unwrap_or_default().to_string();
@@ -231,13 +235,32 @@ impl Fixture {
         let last = reading(SMOLT, end, STANDARD_C_MS_CM, STANDARD_T90_C);
         stored.push((end, last.derived.practical_salinity));
         for chunk in rows.chunks(500) {
-            writer.blocking_send(WriteItem::Readings(chunk.to_vec(), ())).unwrap();
+            writer
+                .blocking_send(WriteItem::Readings(chunk.to_vec(), ()))
+                .unwrap();
         }
-        writer.blocking_send(WriteItem::Reading(last.clone(), ())).unwrap();
+        writer
+            .blocking_send(WriteItem::Reading(last.clone(), ()))
+            .unwrap();
         let alerts = [
-            alert(1, AlertKind::SalinityTolerance, AlertState::Raised, now - Duration::hours(3)),
-            alert(2, AlertKind::TemperatureOptimum, AlertState::Cleared, now - Duration::hours(30)),
-            alert(3, AlertKind::SalinityOptimum, AlertState::Acknowledged, now - Duration::hours(2)),
+            alert(
+                1,
+                AlertKind::SalinityTolerance,
+                AlertState::Raised,
+                now - Duration::hours(3),
+            ),
+            alert(
+                2,
+                AlertKind::TemperatureOptimum,
+                AlertState::Cleared,
+                now - Duration::hours(30),
+            ),
+            alert(
+                3,
+                AlertKind::SalinityOptimum,
+                AlertState::Acknowledged,
+                now - Duration::hours(2),
+            ),
         ];
         for a in &alerts {
             writer.blocking_send(WriteItem::Alert(a.clone())).unwrap();
@@ -328,8 +351,10 @@ pub struct Exposition {
 impl Exposition {
     /// The value of the sample with this name and exactly these labels.
     pub fn value(&self, name: &str, labels: &[(&str, &str)]) -> Option<f64> {
-        let want: BTreeMap<String, String> =
-            labels.iter().map(|(k, v)| (k.to_string(), v.to_string())).collect();
+        let want: BTreeMap<String, String> = labels
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect();
         self.samples
             .iter()
             .find(|s| s.name == name && s.labels == want)
@@ -375,7 +400,9 @@ fn parse_labels(text: &str) -> Result<(BTreeMap<String, String>, &str), String> 
         if !is_label_name(name) {
             return Err(format!("bad label name `{name}`"));
         }
-        rest = rest[eq + 1..].strip_prefix('"').ok_or("label value must be quoted")?;
+        rest = rest[eq + 1..]
+            .strip_prefix('"')
+            .ok_or("label value must be quoted")?;
         let mut value = String::new();
         let mut chars = rest.char_indices();
         let end = loop {
@@ -420,7 +447,10 @@ pub fn parse_exposition(text: &str) -> Result<Exposition, String> {
     let family_of = |name: &str, types: &BTreeMap<String, String>| -> String {
         for suffix in ["_bucket", "_sum", "_count"] {
             if let Some(base) = name.strip_suffix(suffix) {
-                if types.get(base).is_some_and(|t| t == "histogram" || t == "summary") {
+                if types
+                    .get(base)
+                    .is_some_and(|t| t == "histogram" || t == "summary")
+                {
                     return base.to_string();
                 }
             }
@@ -471,7 +501,8 @@ pub fn parse_exposition(text: &str) -> Result<Exposition, String> {
         let mut fields = rest.split_whitespace();
         let value = parse_value(fields.next().ok_or_else(|| at("no value".into()))?).map_err(at)?;
         if let Some(ts) = fields.next() {
-            ts.parse::<i64>().map_err(|_| at(format!("bad timestamp `{ts}`")))?;
+            ts.parse::<i64>()
+                .map_err(|_| at(format!("bad timestamp `{ts}`")))?;
         }
         if fields.next().is_some() {
             return Err(at("text after the timestamp".into()));
@@ -492,7 +523,7 @@ pub fn parse_exposition(text: &str) -> Result<Exposition, String> {
                 return Err(at("a histogram has only _bucket, _sum and _count samples".into()));
             }
         }
-        if out.types.get(&family).is_some_and(|t| t == "counter") && !(value >= 0.0) {
+        if out.types.get(&family).is_some_and(|t| t == "counter") && (value < 0.0 || value.is_nan()) {
             return Err(at("a counter is never negative".into()));
         }
         out.samples.push(Sample {
