@@ -639,3 +639,79 @@ fn the_exposition_checker_refuses_what_the_format_forbids() {
         assert!(parse_exposition(bad).is_err(), "accepted: {bad:?}");
     }
 }
+
+#[test]
+fn hours_folded_by_retention_come_back_from_the_hourly_table() {
+    let f = Fixture::start(None);
+    let (writer, _reports, thread) =
+        halotank::storage::spawn_writer::<()>(&f.db, halotank::storage::WriterSettings::default()).unwrap();
+    let settings = halotank::storage::RetentionSettings {
+        readings_days: 1,
+        rejections_days: None,
+    };
+    let report = writer.blocking_run_retention(f.now, settings).unwrap();
+    drop(writer);
+    thread.join().unwrap().unwrap();
+    assert!(report.readings_folded > 1000, "{report:?}");
+    let cutoff = report.readings_cutoff;
+    let from = f.stored[0].0;
+    let to = f.stored.last().unwrap().0 + Duration::seconds(1);
+    let r = f.get(&format!(
+        "/api/tanks/{SMOLT}/history?from={}&to={}&points=5000",
+        enc(from),
+        enc(to)
+    ));
+    assert_eq!(r.status, 200, "{}", r.body);
+    let v = r.json();
+    assert_eq!(v["downsampled"], true);
+    let points = v["points"].as_array().unwrap();
+    // Each folded hour is one point at the middle of its hour with that hour's mean, min and max.
+    let hour = Duration::hours(1);
+    let first_hour_start = DateTime::from_timestamp(from.timestamp() - from.timestamp() % 3600, 0).unwrap();
+    let mut h = first_hour_start;
+    let mut checked = 0;
+    while h + hour <= cutoff {
+        let in_hour: Vec<f64> = f
+            .stored
+            .iter()
+            .filter(|(t, _)| *t >= h && *t < h + hour)
+            .map(|(_, sp)| *sp)
+            .collect();
+        if h >= from && !in_hour.is_empty() {
+            let mid = stamp(h + Duration::minutes(30));
+            let p = points
+                .iter()
+                .find(|p| p["time"] == mid)
+                .unwrap_or_else(|| panic!("no point at {mid}"));
+            let mean = in_hour.iter().sum::<f64>() / in_hour.len() as f64;
+            assert!(
+                (p["practical_salinity"].as_f64().unwrap() - mean).abs() < 1e-9,
+                "{mid}"
+            );
+            let max = in_hour.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+            assert_eq!(p["max_practical_salinity"].as_f64().unwrap(), max);
+            checked += 1;
+        }
+        h += hour;
+    }
+    assert!(checked >= 20, "{checked} folded hours checked");
+    // After the cutoff every raw reading is its own point.
+    let raw_after = f.stored.iter().filter(|(t, _)| *t >= cutoff).count();
+    let after = points
+        .iter()
+        .filter(|p| p["time"].as_str().unwrap() >= stamp(cutoff).as_str())
+        .count();
+    assert_eq!(after, raw_after);
+}
+
+#[test]
+fn a_database_that_cannot_be_opened_answers_503() {
+    let f = Fixture::start(Some(TOKEN));
+    for suffix in ["", "-wal", "-shm"] {
+        let _ = std::fs::remove_file(format!("{}{suffix}", f.db.display()));
+    }
+    assert!(f.get("/api/alerts").error(503).contains("database"));
+    f.get(&format!("/api/tanks/{SMOLT}/history")).error(503);
+    // The overview is served from memory and still answers.
+    assert_eq!(f.get("/api/tanks").status, 200);
+}

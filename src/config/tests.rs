@@ -744,7 +744,10 @@ fn http_defaults_to_loopback_with_the_token_from_the_environment() {
     assert!(config.http.enabled);
     assert_eq!(config.http.bind.to_string(), "127.0.0.1:8480");
     assert_eq!(config.http.token_env.as_deref(), Some("HALOTANK_HTTP_TOKEN"));
-    assert_eq!((config.http.token_file.as_ref(), config.http.stale_after_s), (None, None));
+    assert_eq!(
+        (config.http.token_file.as_ref(), config.http.stale_after_s),
+        (None, None)
+    );
     let text = format!(
         "{BASE}[http]\nenabled = false\nbind = \"[::1]:0\"\ntoken_file = \"secrets/http-token\"\nstale_after_s = 300\n{TANK_A}"
     );
@@ -771,7 +774,10 @@ fn bad_http_settings_name_line_and_key() {
         let text = format!("{BASE}{TANK_A}\n[http]\n{setting}\n");
         let (line, got_key, message, shown) = bad(&text);
         assert!(got_key.starts_with(key), "{setting}: {got_key}");
-        assert!(message.contains(needle) || shown.contains(needle), "{setting}: {shown}");
+        assert!(
+            message.contains(needle) || shown.contains(needle),
+            "{setting}: {shown}"
+        );
         let expected = line_of(&text, setting.split(' ').next().unwrap());
         assert_eq!(line, Some(expected), "{setting}: {shown}");
     }
