@@ -523,6 +523,8 @@ fn the_page_and_assets_are_embedded_and_unknown_routes_answer_json() {
     assert_eq!(f.get("/assets/index.html").status, 200);
     f.get("/assets/missing.js").error(404);
     f.get("/api/nothing-here").error(404);
+    let huge = format!(r#"{{"by": "ines", "note": "{}"}}"#, "n".repeat(70 * 1024));
+    assert!(f.post("/api/plan", &huge, None).error(413).contains("KiB"));
     let m = f.post("/api/tanks", "{}", Some(TOKEN)).error(405);
     assert!(m.contains("method"), "{m}");
 }

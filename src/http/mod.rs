@@ -13,6 +13,7 @@
 pub mod alerts;
 pub mod assets;
 pub mod auth;
+pub mod body;
 pub mod db;
 pub mod error;
 pub mod health;
