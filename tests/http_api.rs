@@ -732,6 +732,10 @@ fn a_database_that_cannot_be_opened_answers_503() {
     }
     assert!(f.get("/api/alerts").error(503).contains("database"));
     f.get(&format!("/api/tanks/{SMOLT}/history")).error(503);
+    f.post("/api/alerts/1/ack", r#"{"by": "ines"}"#, Some(TOKEN))
+        .error(503);
+    f.post("/api/schedules/1/pause", "", Some(TOKEN)).error(503);
+    assert!(!f.db.exists(), "no empty database was created");
     // The overview is served from memory and still answers.
     assert_eq!(f.get("/api/tanks").status, 200);
 }

@@ -103,6 +103,13 @@ pub async fn acknowledge(
     let request_id = state
         .db()
         .change(move |path| {
+            if !path.exists() {
+                // Opening for writing would create an empty database.
+                return Err(crate::storage::StorageError::DatabaseMissing {
+                    path: path.to_path_buf(),
+                }
+                .into());
+            }
             let conn = open_for_writing(path, Duration::from_secs(5))?;
             let record = crate::storage::alerts::select_alert(&conn, id)?
                 .ok_or_else(|| ApiError::not_found(format!("no alert {id}")))?;
