@@ -22,6 +22,10 @@ use crate::storage::Reader;
 
 /// Client id of the simulated probes (the daemon uses the configuration's).
 pub const PROBES_CLIENT_ID: &str = "halotank-demo-probes";
+/// Prefix of the token the demo makes for its run when none is set.
+const DEMO_TOKEN_PREFIX: &str = "demo-run-";
+/// The demo made the token (so it may print it).
+static TOKEN_MADE_FOR_RUN: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
 /// Time the daemon gets to connect and subscribe before the probes start.
 const DAEMON_HEAD_START: Duration = Duration::from_millis(500);
 /// Longest wait for the probes, then the daemon, to finish on shutdown.
@@ -116,7 +120,11 @@ pub fn run(args: DemoArgs) -> anyhow::Result<ExitCode> {
     // A token for this run, so the page's changes (acknowledge, schedules) can be tried; set before any
     // other thread starts.
     if std::env::var_os(HTTP_TOKEN_ENV).is_none() {
-        std::env::set_var(HTTP_TOKEN_ENV, format!("demo-{:016x}", rand::random::<u64>()));
+        std::env::set_var(
+            HTTP_TOKEN_ENV,
+            format!("{DEMO_TOKEN_PREFIX}{:016x}", rand::random::<u64>()),
+        );
+        TOKEN_MADE_FOR_RUN.store(true, std::sync::atomic::Ordering::SeqCst);
     }
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
@@ -181,8 +189,13 @@ async fn run_demo(args: DemoArgs) -> anyhow::Result<ExitCode> {
     tokio::time::sleep(DAEMON_HEAD_START).await;
     if let Ok(Ok(addr)) = tokio::time::timeout(DAEMON_HEAD_START, http_addr_rx).await {
         println!("  page and API: http://{addr}/   (metrics: http://{addr}/metrics)");
-        if let Ok(token) = std::env::var(HTTP_TOKEN_ENV) {
-            println!("  token for changes on the page ({HTTP_TOKEN_ENV}): {token}");
+        match std::env::var(HTTP_TOKEN_ENV) {
+            // Only a token made for this run is shown; one from the user's environment stays private.
+            Ok(token) if TOKEN_MADE_FOR_RUN.load(std::sync::atomic::Ordering::SeqCst) => {
+                println!("  token for changes on the page (this run only): {token}")
+            }
+            Ok(_) => println!("  token for changes on the page: the one in {HTTP_TOKEN_ENV}"),
+            Err(_) => {}
         }
         println!();
     }
