@@ -137,7 +137,9 @@ fn build_history(db: &Path, days: i64) -> DateTime<Utc> {
     let conn = open_for_writing(db, Duration::from_secs(10)).unwrap();
     conn.pragma_update(None, "synchronous", "OFF").unwrap();
     let tank_ids: Vec<String> = (0..TANKS).map(tank_id).collect();
-    let topics: Vec<String> = (0..TANKS).map(|i| format!("bench/{}/state", tank_id(i))).collect();
+    let topics: Vec<String> = (0..TANKS)
+        .map(|i| format!("bench/{}/state", tank_id(i)))
+        .collect();
     let t0 = Instant::now();
     let mut written = 0u64;
     for minute in 0..minutes {
@@ -162,7 +164,10 @@ fn build_history(db: &Path, days: i64) -> DateTime<Utc> {
         }
         if minute % (24 * 60) == 0 && minute > 0 {
             let rate = written as f64 / t0.elapsed().as_secs_f64();
-            println!("history: day {} of {days}, {written} rows, {rate:.0} rows/s", minute / (24 * 60));
+            println!(
+                "history: day {} of {days}, {written} rows, {rate:.0} rows/s",
+                minute / (24 * 60)
+            );
         }
     }
     conn.execute_batch("COMMIT").unwrap();
@@ -249,7 +254,12 @@ async fn wait_for_server(base: &str) {
 }
 
 /// Publishes readings for every tank in turn at `INGEST_PER_S`, times after the history's end.
-async fn publish_load(broker: SocketAddr, running: Arc<AtomicBool>, sent: Arc<AtomicU64>, end: DateTime<Utc>) {
+async fn publish_load(
+    broker: SocketAddr,
+    running: Arc<AtomicBool>,
+    sent: Arc<AtomicU64>,
+    end: DateTime<Utc>,
+) {
     let mut options = MqttOptions::new("halotank-http-bench-load", broker.ip().to_string(), broker.port());
     options.set_keep_alive(Duration::from_secs(30));
     options.set_inflight(1000);
@@ -270,7 +280,11 @@ async fn publish_load(broker: SocketAddr, running: Arc<AtomicBool>, sent: Arc<At
                 time.to_rfc3339_opts(SecondsFormat::Millis, true)
             );
             let topic = format!("bench/{}/state", tank_id(tank));
-            if client.publish(topic, QoS::AtMostOnce, false, payload).await.is_err() {
+            if client
+                .publish(topic, QoS::AtMostOnce, false, payload)
+                .await
+                .is_err()
+            {
                 break;
             }
             n += 1;
@@ -317,9 +331,19 @@ fn measure_overview(base: &str) -> Latencies {
     let mut ms = Vec::with_capacity(OVERVIEW_REQUESTS);
     for _ in 0..OVERVIEW_REQUESTS {
         let t = Instant::now();
-        let body = agent.get(&url).call().unwrap().body_mut().read_to_string().unwrap();
+        let body = agent
+            .get(&url)
+            .call()
+            .unwrap()
+            .body_mut()
+            .read_to_string()
+            .unwrap();
         ms.push(t.elapsed().as_secs_f64() * 1e3);
-        assert!(body.len() > TANKS * 100, "overview answer too short: {} bytes", body.len());
+        assert!(
+            body.len() > TANKS * 100,
+            "overview answer too short: {} bytes",
+            body.len()
+        );
     }
     Latencies { ms }
 }
@@ -337,7 +361,13 @@ fn measure_chart(base: &str, end: DateTime<Utc>) -> Latencies {
         let tank = tank_id((state % TANKS as u64) as usize);
         let url = format!("{base}/api/tanks/{tank}/history?from={from}&to={to}&points=1000");
         let t = Instant::now();
-        let body = agent.get(&url).call().unwrap().body_mut().read_to_string().unwrap();
+        let body = agent
+            .get(&url)
+            .call()
+            .unwrap()
+            .body_mut()
+            .read_to_string()
+            .unwrap();
         ms.push(t.elapsed().as_secs_f64() * 1e3);
         assert!(body.contains("\"points\""), "chart answer without points");
     }

@@ -11,6 +11,7 @@ fn a_short_demo_runs_and_exits_0() {
     let dir = tempfile::tempdir().unwrap();
     let db = dir.path().join("demo.db");
     let out = halotank()
+        .env_remove("HALOTANK_HTTP_TOKEN")
         .args(["demo", "--duration", "2s", "--speed", "600", "--db"])
         .arg(&db)
         .current_dir(dir.path())
@@ -39,6 +40,11 @@ fn a_short_demo_runs_and_exits_0() {
         "{stdout}"
     );
     assert!(stdout.contains("Stopped: the duration has passed."), "{stdout}");
+    assert!(stdout.contains("page and API: http://127.0.0.1:"), "{stdout}");
+    assert!(
+        stdout.contains("token for changes on the page (this run only): demo-run-"),
+        "{stdout}"
+    );
     let db_text = db.display().to_string();
     assert!(stdout.contains(&format!("Database: {db_text}")), "{stdout}");
     assert!(stdout.contains("halotank status --db "), "{stdout}");

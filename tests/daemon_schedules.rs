@@ -35,7 +35,7 @@ const RULES_OFF: [&str; 10] = [
 fn config_text(addr: std::net::SocketAddr, db: &Path, topic: &str, prefix: &str) -> String {
     let mut text = format!(
         "[site]\nname = \"Kelpie Point Hatchery\"\n[broker]\nhost = \"{}\"\nport = {}\nclient_id = \"{}\"\n\
-         [storage]\npath = \"{}\"\nflush_ms = 50\n[publish]\ntopic_prefix = \"{prefix}\"\n\
+         [storage]\npath = \"{}\"\nflush_ms = 50\n[publish]\ntopic_prefix = \"{prefix}\"\n[http]\nbind = \"127.0.0.1:0\"\n\
          [[tanks]]\nid = \"{TANK}\"\nname = \"Smolt B2\"\nvolume_l = 1000\nspecies = \"atlantic_salmon_smolt\"\n\
          format = \"json\"\nconductivity_unit = \"mS/cm\"\n\
          [tanks.topics]\ncombined = \"{topic}\"\n\

@@ -15,6 +15,8 @@
 //! tracker's setpoints go to the setpoint publisher (retained `<prefix>/tank/<id>/setpoint`), its
 //! step-due and off-schedule signals to the alert engine, and each reading is checked against its tank's
 //! setpoint in the handler.
+//! HTTP: [`live_updates`] starts the server of [`crate::http`] and the loop keeps its live view current
+//! (tank states from the acker, alert events, the link, counters and writer health every state tick).
 //!
 //! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
 //! ignored messages travel through the writer too, so acks leave in the order messages arrived.
@@ -25,6 +27,7 @@ pub mod alerting;
 pub mod connection;
 pub mod counters;
 pub mod handler;
+pub mod live_updates;
 pub mod schedule_sync;
 pub mod setpoint_publisher;
 pub mod shutdown;
@@ -74,9 +77,25 @@ pub struct RunSummary {
     pub acks_sent: u64,
 }
 
+/// What a caller embedding the daemon (the demo, tests) may ask of it.
+#[derive(Debug, Default)]
+pub struct DaemonHooks {
+    /// Hears the address the HTTP server listens on, once it does.
+    pub http_addr: Option<tokio::sync::oneshot::Sender<std::net::SocketAddr>>,
+}
+
 /// Runs the daemon until `shutdown` turns true; then stops taking messages, commits, acks,
 /// publishes `offline` and returns.
-pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
+pub async fn run(config: Config, shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
+    run_with(config, shutdown, DaemonHooks::default()).await
+}
+
+/// [`run`] with hooks.
+pub async fn run_with(
+    config: Config,
+    mut shutdown: watch::Receiver<bool>,
+    hooks: DaemonHooks,
+) -> anyhow::Result<RunSummary> {
     let started_at = Utc::now();
     let profiles = tank_profiles(&config)?;
     let mut alerting = alerting::Alerting::new(&config, &profiles)?;
@@ -101,6 +120,8 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     let highest_id = reader.max_alert_id().context("cannot read the stored alerts")?;
     let restore_report = alerting.restore(restored, highest_id);
     tracing::info!(?restore_report, highest_id, "open alerts restored");
+    let live = live_updates::Live::start(&config, &profiles, hooks.http_addr).await?;
+    live.view.set_open_alerts(alerting.open_alerts());
 
     let options = connection::connection_options(&config)?;
     let filters = subscriptions(&config);
@@ -118,6 +139,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         reports,
         mqtt.clone(),
         config.publish.topic_prefix.clone(),
+        live.view.clone(),
     ));
 
     let (alert_tx, alert_rx) = tokio::sync::mpsc::channel(ALERT_QUEUE);
@@ -144,6 +166,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     let now = Utc::now();
     let actions = schedules.poll(handler.tracker_mut(), now);
     apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, actions, now);
+    live.on_schedules(handler.tracker());
     let mut alert_tick = tokio::time::interval(ALERT_TICK);
     let mut handled_requests: std::collections::HashSet<i64> = std::collections::HashSet::new();
     let mut link = mqtt.connection_state();
@@ -178,7 +201,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                 let events = handler.take_alert_events();
                 let pauses = schedule_sync::pauses_for_critical(handler.tracker(), &events);
                 apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, pauses, message.received_at);
-                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
+                if emit_alert_events(&writer, &alert_tx, &live.view, events).await.is_err() {
                     break;
                 }
             }
@@ -186,6 +209,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                 let now = Utc::now();
                 let actions = schedules.poll(handler.tracker_mut(), now);
                 apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, actions, now);
+                live.on_schedules(handler.tracker());
                 let mut events = handler.take_alert_events();
                 events.extend(handler.alerting_mut().on_tick(now));
                 match reader.pending_ack_requests() {
@@ -215,13 +239,14 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                 }
                 let pauses = schedule_sync::pauses_for_critical(handler.tracker(), &events);
                 apply_schedule_actions(&mut handler, &mut schedules, &setpoint_tx, pauses, now);
-                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
+                if emit_alert_events(&writer, &alert_tx, &live.view, events).await.is_err() {
                     break;
                 }
             }
             _ = link.changed() => {
                 let state = link.borrow_and_update().clone();
                 log_link_change(&state);
+                live.view.set_link(&state);
             }
             _ = state_tick.tick() => {
                 let now = Utc::now();
@@ -235,6 +260,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                         "broker unreachable; readings wait at the broker"
                     );
                 }
+                live.on_state_tick(&state, handler.counters(), &writer);
                 let row = daemon_state_row(started_at, &state, handler.counters());
                 if writer.send(WriteItem::DaemonState(row)).await.is_err() {
                     break;
@@ -274,6 +300,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     }
     let writer_result = tokio::task::spawn_blocking(move || writer_thread.join()).await;
     let acked: AckerSummary = acker.await.unwrap_or_default();
+    live.stop().await;
     if let Err(err) = mqtt.shutdown(MQTT_SHUTDOWN_TIMEOUT).await {
         tracing::warn!(error = %err, "MQTT shutdown incomplete");
     }
@@ -347,12 +374,14 @@ fn apply_schedule_actions(
 async fn emit_alert_events(
     writer: &WriterHandle<Pending>,
     publisher: &tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>,
+    live: &crate::http::LiveView,
     events: Vec<crate::alerts::AlertEvent>,
 ) -> Result<(), StorageError> {
     for event in events {
         tracing::info!(event = event.name(), alert = %event.id(), tank = %event.alert().tank,
             severity = event.severity().as_str(), "{}", event.message());
         writer.send(WriteItem::Alert(event.alert().clone())).await?;
+        live.set_alert(event.alert());
         if publisher.try_send(event).is_err() {
             tracing::warn!("alert publisher queue full; event not published");
         }

@@ -7,12 +7,14 @@
 //! - [`state`]: active, paused, aborted, completed; the record of a step marked done.
 //! - [`transitions`]: the schedule and its checked transitions (pause, resume, abort, step done).
 //! - [`progress`]: step n of m, setpoint now, next step, ahead or behind, expected finish.
+//! - [`report`]: the JSON shapes shown to people (CLI and HTTP API).
 //! - [`setpoint`]: the setpoint message published for a tank's dosing controller.
 //! - [`tracker`]: the daemon's live tracking of open schedules (setpoints, step-due and off-schedule signals).
 //! - [`error`]: refused transitions.
 pub mod error;
 pub mod plan_copy;
 pub mod progress;
+pub mod report;
 pub mod setpoint;
 pub mod state;
 pub mod tracker;
@@ -21,6 +23,7 @@ pub mod transitions;
 pub use error::ScheduleError;
 pub use plan_copy::SchedulePlan;
 pub use progress::{progress, timeline, NextStep, Progress};
+pub use report::{ScheduleReport, ScheduleSummary};
 pub use setpoint::{setpoint_topic, SetpointMessage};
 pub use state::{ScheduleState, StepDone};
 pub use tracker::{ScheduleTracker, SyncOutcome, TankTracking, TrackerAction};

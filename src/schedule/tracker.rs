@@ -93,6 +93,11 @@ impl ScheduleTracker {
         self.tracked.get(tank_id).map(|t| &t.schedule)
     }
 
+    /// Every open schedule, as last synced.
+    pub fn schedules(&self) -> impl Iterator<Item = &Schedule> + '_ {
+        self.tracked.values().map(|t| &t.schedule)
+    }
+
     /// Every tracked schedule's progress.
     pub fn all_progress(&self) -> impl Iterator<Item = &Progress> + '_ {
         self.tracked.values().map(|t| &t.progress)
