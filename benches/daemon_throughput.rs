@@ -289,6 +289,8 @@ client_id = "{client_id}"
 path = "{db}"
 [publish]
 topic_prefix = "{root}-out"
+[http]
+bind = "127.0.0.1:0"
 "#,
         host = broker.ip(),
         port = broker.port(),

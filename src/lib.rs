@@ -16,6 +16,7 @@
 //! Adapters:
 //! - [`mqtt`]: the MQTT adapter (client task with manual acks, embedded broker).
 //! - [`storage`]: the SQLite record (readings, rejections, hourly summaries, daemon state).
+//! - [`http`]: the HTTP server: page, JSON API, metrics, health.
 //! - [`demo`]: `halotank demo` (simulated probes; the scenario itself is pure).
 //! - [`cli`]: the command-line front end.
 pub mod alerts;
@@ -23,6 +24,7 @@ pub mod cli;
 pub mod config;
 pub mod daemon;
 pub mod demo;
+pub mod http;
 pub mod ingest;
 pub mod mqtt;
 pub mod planner;

@@ -39,6 +39,7 @@ fn a_short_demo_runs_and_exits_0() {
         "{stdout}"
     );
     assert!(stdout.contains("Stopped: the duration has passed."), "{stdout}");
+    assert!(stdout.contains("page and API: http://127.0.0.1:"), "{stdout}");
     let db_text = db.display().to_string();
     assert!(stdout.contains(&format!("Database: {db_text}")), "{stdout}");
     assert!(stdout.contains("halotank status --db "), "{stdout}");

@@ -34,6 +34,7 @@ fn config_text(addr: std::net::SocketAddr, db: &Path, topic: &str, prefix: &str)
     let mut text = format!(
         "[site]\nname = \"Kelpie Point Hatchery\"\n[broker]\nhost = \"{}\"\nport = {}\nclient_id = \"{}\"\n\
          [storage]\npath = \"{}\"\nflush_ms = 50\n[publish]\ntopic_prefix = \"{prefix}\"\n\
+         [http]\nbind = \"127.0.0.1:0\"\n\
          [[tanks]]\nid = \"oyster-e1\"\nname = \"Oyster E1\"\nvolume_l = 400\nspecies = \"{SPECIES}\"\n\
          format = \"json\"\nconductivity_unit = \"mS/cm\"\n\
          [tanks.topics]\ncombined = \"{topic}\"\n\

@@ -800,6 +800,15 @@ function planView(params) {
     max_flow_L_min: numberInput("max_flow_L_min", { min: 0 }),
     holds: h("input", { type: "text", name: "holds", placeholder: "12@12, 20@6", "data-testid": "plan-holds", autocomplete: "off" }),
     start: h("input", { type: "datetime-local", name: "start", "data-testid": "plan-start-time" }),
+    top_up_practical_salinity: numberInput("top_up_practical_salinity", { min: 0, max: 42 }),
+    source_a_practical_salinity: numberInput("source_a_practical_salinity", { min: 0, max: 42 }),
+    source_b_practical_salinity: numberInput("source_b_practical_salinity", { min: 0, max: 42 }),
+    batch_volume_L: numberInput("batch_volume_L", { min: 0 }),
+  };
+  // Fields only some methods use: shown for those methods only.
+  const only = (methods, node) => {
+    node.dataset.methods = methods;
+    return node;
   };
   const result = h("div", { class: "plan-result", "data-testid": "plan-result" });
   const form = h("form", { class: "plan-form panel", "data-testid": "plan-form", onsubmit: (e) => {
@@ -814,14 +823,23 @@ function planView(params) {
       field("Species id", inputs.species, "caps the rate at its limits"),
       field("Temperature, °C", inputs.temperature_C),
       field("Method", method),
-      field("Source water SP", inputs.source_practical_salinity),
+      only("exchange flow", field("Source water SP", inputs.source_practical_salinity)),
+      only("salt", field("Top-up water SP", inputs.top_up_practical_salinity, "the water the salt is dissolved in")),
+      only("blend", field("Source A SP", inputs.source_a_practical_salinity)),
+      only("blend", field("Source B SP", inputs.source_b_practical_salinity)),
+      only("blend", field("Batch volume, L", inputs.batch_volume_L)),
       field("Interval, h", inputs.interval_h),
       field("Ramp shape", shape),
       field("Holds SP@hours", inputs.holds, "comma separated"),
-      field("Max flow, L/min", inputs.max_flow_L_min, "flow-through"),
+      only("flow", field("Max flow, L/min", inputs.max_flow_L_min)),
       field("First step at", inputs.start, "blank: now")),
     h("div", { class: "actions" }, h("button", { type: "submit", class: "primary", "data-testid": "plan-submit" }, "Make plan")));
   view.replaceChildren(h("h1", {}, "Plan a salinity change"), form, result);
+  const showMethodFields = () => {
+    for (const f of form.querySelectorAll("[data-methods]")) f.hidden = !f.dataset.methods.split(" ").includes(method.value);
+  };
+  method.addEventListener("change", showMethodFields);
+  showMethodFields();
 
   api.tanks().then((d) => {
     for (const t of (d && d.tanks) || []) tankSel.append(h("option", { value: t.id }, `${t.name || t.id} (${t.id})`));
@@ -831,7 +849,10 @@ function planView(params) {
   function readForm() {
     const f = { method: method.value };
     if (tankSel.value) f.tank = tankSel.value;
-    for (const k of ["volume_L", "from", "to", "temperature_C", "source_practical_salinity", "interval_h", "max_flow_L_min"]) {
+    const numeric = ["volume_L", "from", "to", "temperature_C", "source_practical_salinity", "interval_h", "max_flow_L_min",
+      "top_up_practical_salinity", "source_a_practical_salinity", "source_b_practical_salinity", "batch_volume_L"];
+    for (const k of numeric) {
+      if (inputs[k].closest("[data-methods]")?.hidden) continue;
       const v = inputs[k].value.trim();
       if (v !== "") f[k] = Number(v);
     }

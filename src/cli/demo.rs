@@ -10,6 +10,7 @@ use chrono::Utc;
 use tokio::sync::watch;
 use tokio::time::{Instant, MissedTickBehavior};
 
+use crate::config::defaults::HTTP_TOKEN_ENV;
 use crate::config::Config;
 use crate::daemon;
 use crate::demo::config::{demo_config_for, DEFAULT_DB};
@@ -112,6 +113,11 @@ pub fn run(args: DemoArgs) -> anyhow::Result<ExitCode> {
         std::env::set_var("RUST_LOG", "warn,rumqttd=off,rumqttc=off");
     }
     crate::cli::logging::init(crate::cli::logging::LogFormat::Text);
+    // A token for this run, so the page's changes (acknowledge, schedules) can be tried; set before any
+    // other thread starts.
+    if std::env::var_os(HTTP_TOKEN_ENV).is_none() {
+        std::env::set_var(HTTP_TOKEN_ENV, format!("demo-{:016x}", rand::random::<u64>()));
+    }
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
         .build()
@@ -131,7 +137,11 @@ async fn run_demo(args: DemoArgs) -> anyhow::Result<ExitCode> {
     let started = Instant::now();
     let clock = SimClock::new(Utc::now(), args.duration, args.speed)?;
     let broker = EmbeddedBroker::start().await?;
-    let config = demo_config_for(broker.addr(), &args.db)?;
+    let mut config = demo_config_for(broker.addr(), &args.db)?;
+    // The page's usual port when free, else any free one (the address is printed below).
+    if std::net::TcpListener::bind(config.http.bind).is_err() {
+        config.http.bind.set_port(0);
+    }
     let scenario = Scenario::brannock(args.seed, clock.sim_start(), clock.real_start());
     let db = config.storage.path.clone();
     let db_existed = db.exists();
@@ -163,8 +173,19 @@ async fn run_demo(args: DemoArgs) -> anyhow::Result<ExitCode> {
     println!();
 
     let (daemon_stop, daemon_stop_rx) = watch::channel(false);
-    let mut daemon_task = tokio::spawn(daemon::run(config.clone(), daemon_stop_rx));
+    let (http_addr, http_addr_rx) = tokio::sync::oneshot::channel();
+    let hooks = daemon::DaemonHooks {
+        http_addr: Some(http_addr),
+    };
+    let mut daemon_task = tokio::spawn(daemon::run_with(config.clone(), daemon_stop_rx, hooks));
     tokio::time::sleep(DAEMON_HEAD_START).await;
+    if let Ok(Ok(addr)) = tokio::time::timeout(DAEMON_HEAD_START, http_addr_rx).await {
+        println!("  page and API: http://{addr}/   (metrics: http://{addr}/metrics)");
+        if let Ok(token) = std::env::var(HTTP_TOKEN_ENV) {
+            println!("  token for changes on the page ({HTTP_TOKEN_ENV}): {token}");
+        }
+        println!();
+    }
 
     let (probes_stop, probes_stop_rx) = watch::channel(false);
     let (stats_tx, stats_rx) = watch::channel(ProbeStats::default());

@@ -11,12 +11,10 @@ use clap::{Args, ValueEnum};
 use crate::cli::plan_chart::plan_chart_svg;
 use crate::cli::plan_options::{parse_hold, parse_hours, parse_range, parse_rate, RateArg};
 use crate::cli::plan_output::{write_blend_csv, write_blend_table, write_csv, write_table};
-use crate::planner::from_species;
 use crate::planner::salt::DEFAULT_DISSOLVE_WATER_L_PER_KG;
-use crate::planner::water::MAX_PLAN_PRACTICAL_SALINITY;
 use crate::planner::{
-    blend_batch, make_plan, BlendRequest, Hold, Method, PlanRequest, Ramp, RampShape, RateLimits,
-    SalinityLimits,
+    blend_batch, build_request, make_plan, BlendRequest, Hold, InputsError, MethodChoice, PlanInputs,
+    PlanRequest, Ramp, RampShape, RateLimits, RequiredInput,
 };
 use crate::species::SpeciesLibrary;
 
@@ -210,26 +208,6 @@ fn ramp(args: &PlanningOptions) -> anyhow::Result<Ramp> {
     Ok(Ramp { shape, rate })
 }
 
-fn salinity_limits(args: &PlanningOptions) -> Option<SalinityLimits> {
-    match (args.optimum, args.tolerance) {
-        (None, None) => None,
-        (Some(o), Some(t)) => Some(SalinityLimits {
-            optimum: o,
-            tolerance: t,
-        }),
-        // Only a tolerance: treat it as the optimum too (nothing narrower is known).
-        (None, Some(t)) => Some(SalinityLimits {
-            optimum: t,
-            tolerance: t,
-        }),
-        // Only an optimum: no tolerance is known, so nothing is flagged as intolerable.
-        (Some(o), None) => Some(SalinityLimits {
-            optimum: o,
-            tolerance: (0.0, MAX_PLAN_PRACTICAL_SALINITY),
-        }),
-    }
-}
-
 fn required(value: Option<f64>, option: &str, method: &str) -> anyhow::Result<f64> {
     value.with_context(|| format!("--method {method} needs {option}"))
 }
@@ -248,53 +226,35 @@ pub fn planning_request(
     now: DateTime<Utc>,
 ) -> anyhow::Result<PlanRequest> {
     let method = match args.method {
-        MethodArg::Exchange => Method::Exchange {
-            source_practical_salinity: required(args.source_salinity, "--source-salinity", "exchange")?,
-        },
-        MethodArg::Flow => Method::FlowThrough {
-            source_practical_salinity: required(args.source_salinity, "--source-salinity", "flow")?,
-            max_flow_l_min: args.max_flow,
-        },
-        MethodArg::Salt => Method::Salt {
-            top_up_practical_salinity: args.top_up_salinity,
-            dissolve_water_l_per_kg: args.dissolve_water,
-        },
+        MethodArg::Exchange => MethodChoice::Exchange,
+        MethodArg::Flow => MethodChoice::Flow,
+        MethodArg::Salt => MethodChoice::Salt,
         MethodArg::Blend => bail!("--method blend makes a batch, not a plan"),
     };
     let (max_sp, max_percent) = split_rates("--max-rate", &args.max_rate)?;
     let (slow_sp, slow_percent) = split_rates("--slow-rate", &args.slow_rate)?;
-    let explicit_rates = RateLimits {
-        max_rate_sp_per_h: max_sp,
-        max_rate_percent_per_h: max_percent,
-        slow_below_sp: args.slow_below,
-        slow_rate_sp_per_h: slow_sp,
-        slow_rate_percent_per_h: slow_percent,
-    };
-    let (rate_limits, salinity_limits) = match &args.species {
-        None => (explicit_rates, salinity_limits(args)),
-        Some(id) => {
-            let library = SpeciesLibrary::embedded()?;
-            let profile = library.get(id).with_context(|| {
-                format!(
-                    "unknown species `{id}`; known: {}",
-                    library.ids().collect::<Vec<_>>().join(", ")
-                )
-            })?;
-            let rates =
-                from_species::merge_rate_limits(explicit_rates, from_species::rate_limits_of(profile));
-            let limits = salinity_limits(args).unwrap_or_else(|| from_species::salinity_limits_of(profile));
-            (rates, Some(limits))
-        }
-    };
-    Ok(PlanRequest {
-        tank_volume_l: required(volume_l, "--volume", "plans")?,
-        from_practical_salinity: required(from_practical_salinity, "--from", "plans")?,
+    let inputs = PlanInputs {
+        tank_volume_l: volume_l,
+        from_practical_salinity,
         to_practical_salinity: args.to,
         temperature_c: args.temperature,
         start: start_time(&args.start, now)?,
         interval_h: args.interval,
         method,
+        source_practical_salinity: args.source_salinity,
+        max_flow_l_min: args.max_flow,
+        top_up_practical_salinity: args.top_up_salinity,
+        dissolve_water_l_per_kg: args.dissolve_water,
         ramp: ramp(args)?,
+        rate_limits: RateLimits {
+            max_rate_sp_per_h: max_sp,
+            max_rate_percent_per_h: max_percent,
+            slow_below_sp: args.slow_below,
+            slow_rate_sp_per_h: slow_sp,
+            slow_rate_percent_per_h: slow_percent,
+        },
+        optimum: args.optimum,
+        tolerance: args.tolerance,
         holds: args
             .hold
             .iter()
@@ -303,8 +263,29 @@ pub fn planning_request(
                 duration_h,
             })
             .collect(),
-        rate_limits,
-        salinity_limits,
+    };
+    let library;
+    let species = match &args.species {
+        None => None,
+        Some(id) => {
+            library = SpeciesLibrary::embedded()?;
+            Some(library.get(id).with_context(|| {
+                format!(
+                    "unknown species `{id}`; known: {}",
+                    library.ids().collect::<Vec<_>>().join(", ")
+                )
+            })?)
+        }
+    };
+    build_request(&inputs, species).map_err(|err| match err {
+        InputsError::Missing { input, method } => {
+            let option = match input {
+                RequiredInput::Volume => "--volume",
+                RequiredInput::FromSalinity => "--from",
+                RequiredInput::SourceSalinity => "--source-salinity",
+            };
+            anyhow::anyhow!("--method {} needs {option}", method.unwrap_or("plans"))
+        }
     })
 }
 

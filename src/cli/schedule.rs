@@ -13,7 +13,7 @@ use crate::cli::plan::{planning_request, MethodArg, PlanningOptions};
 use crate::cli::schedule_output::{step_action, write_progress, write_show, write_summary_line};
 use crate::cli::time_arg::parse_time_arg;
 use crate::planner::{make_plan, CAUTION};
-use crate::schedule::{progress, timeline, Schedule, SchedulePlan};
+use crate::schedule::{Schedule, SchedulePlan, ScheduleReport, ScheduleSummary};
 use crate::storage::{Reader, ScheduleStore};
 
 const EXAMPLES: &str = "\
@@ -216,13 +216,7 @@ fn start(args: &StartArgs, out: &mut impl Write) -> anyhow::Result<()> {
 }
 
 fn write_json(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) -> anyhow::Result<()> {
-    let value = json!({
-        "schedule": s,
-        "progress": progress(s, now),
-        "due": timeline(s, now),
-        "caution": s.plan.caution,
-    });
-    writeln!(out, "{}", serde_json::to_string_pretty(&value)?)?;
+    writeln!(out, "{}", serde_json::to_string_pretty(&ScheduleReport::at(s, now))?)?;
     Ok(())
 }
 
@@ -241,21 +235,7 @@ fn list(args: &ListArgs, out: &mut impl Write) -> anyhow::Result<()> {
             writeln!(out, "caution: {CAUTION}")?;
         }
         ScheduleFormat::Json => {
-            let items: Vec<_> = schedules
-                .iter()
-                .map(|s| {
-                    json!({
-                        "id": s.id,
-                        "tank_id": s.tank_id,
-                        "state": s.state,
-                        "created_at": s.created_at,
-                        "method": s.plan.method,
-                        "from_practical_salinity": s.plan.from_practical_salinity,
-                        "to_practical_salinity": s.plan.to_practical_salinity,
-                        "progress": progress(s, now),
-                    })
-                })
-                .collect();
+            let items: Vec<_> = schedules.iter().map(|s| ScheduleSummary::at(s, now)).collect();
             let value = json!({ "schedules": items, "caution": CAUTION });
             writeln!(out, "{}", serde_json::to_string_pretty(&value)?)?;
         }

@@ -88,6 +88,11 @@ pub struct ClientAuth {
 pub struct Secret(String);
 
 impl Secret {
+    /// Wraps a secret.
+    pub fn new(text: String) -> Self {
+        Self(text)
+    }
+
     /// The secret text.
     pub fn expose(&self) -> &str {
         &self.0

@@ -63,3 +63,8 @@ pub const CONDUCTIVITY_UNIT: ConductivityUnit = ConductivityUnit::MilliSiemensPe
 pub const ALPHA_PERCENT_PER_C: f64 = DEFAULT_ALPHA_PERCENT_PER_C;
 /// Expected time between readings of a tank, seconds.
 pub const EXPECTED_INTERVAL_S: u64 = 60;
+
+/// Address the HTTP server listens on: loopback only.
+pub const HTTP_BIND: ([u8; 4], u16) = ([127, 0, 0, 1], 8480);
+/// Environment variable holding the HTTP bearer token.
+pub const HTTP_TOKEN_ENV: &str = "HALOTANK_HTTP_TOKEN";

@@ -1,7 +1,7 @@
 //! Configuration: one TOML file parsed once into typed, validated structs.
 //!
 //! Sections: `[site]`, `[broker]` (+ `[broker.tls]`), `[storage]`, `[publish]`, `[ingest]`,
-//! `[tank_defaults]`, `[[tanks]]` (+ `[tanks.alerts]`) and `[alerts]` (+ `[alerts.species.<id>]`). Unknown keys are refused so typos surface. Every default lives in
+//! `[tank_defaults]`, `[[tanks]]` (+ `[tanks.alerts]`), `[alerts]` (+ `[alerts.species.<id>]`) and `[http]`. Unknown keys are refused so typos surface. Every default lives in
 //! [`defaults`]. Relative paths are resolved against the folder of the configuration file. Every error
 //! names the file, line, column and key at fault ([`ConfigError`]).
 use std::collections::HashMap;
@@ -13,6 +13,7 @@ pub mod alerts;
 pub mod broker;
 pub mod defaults;
 pub mod error;
+pub mod http;
 pub mod ingest;
 pub mod key_path;
 pub mod locate;
@@ -25,6 +26,7 @@ pub mod topics;
 pub use alerts::AlertsConfig;
 pub use broker::{BrokerConfig, ClientAuth, PasswordError, PasswordSource, Secret, TlsConfig};
 pub use error::{ConfigError, Position};
+pub use http::HttpConfig;
 pub use ingest::IngestSettings;
 pub use key_path::{KeyPath, KeySegment};
 pub use publish::PublishConfig;
@@ -48,6 +50,8 @@ pub struct Config {
     pub tanks: Vec<TankConfig>,
     /// `[alerts]` and `[alerts.species.<id>]`.
     pub alerts: AlertsConfig,
+    /// `[http]`: the built-in HTTP server.
+    pub http: HttpConfig,
 }
 
 impl Config {
@@ -70,6 +74,7 @@ struct RawConfig {
     #[serde(default)]
     tanks: Vec<tank::RawTank>,
     alerts: Option<toml::Table>,
+    http: Option<http::RawHttp>,
 }
 
 /// Reads and validates the configuration file at `path`.
@@ -109,6 +114,7 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
         .resolve(&root.key("publish"), &site)?;
     let ingest = raw.ingest.unwrap_or_default().resolve(&root.key("ingest"))?;
     let alerts = alerts::parse_alerts(raw.alerts, &root.key("alerts"))?;
+    let http = raw.http.unwrap_or_default().resolve(&root.key("http"), &base)?;
     if raw.tanks.is_empty() {
         return Err(Invalid::new(
             root.key("tanks"),
@@ -175,6 +181,7 @@ fn resolve(raw: RawConfig, origin: &Path) -> Result<Config, Invalid> {
         ingest,
         tanks,
         alerts,
+        http,
     })
 }
 

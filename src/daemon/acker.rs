@@ -1,4 +1,5 @@
-//! After each commit: ack the messages it covers (in order) and publish the tanks' new state.
+//! After each commit: ack the messages it covers (in order), publish the tanks' new state, and hand the
+//! states and the commit's size and latency to the HTTP server's live view.
 //!
 //! Acks never wait for state publishes. A state publish waits for room in the MQTT client's request
 //! channel, and that channel drains only while the client's event loop runs, which in turn waits for the
@@ -92,6 +93,7 @@ pub async fn run_acker(
     mut reports: mpsc::Receiver<CommitReport<Pending>>,
     mqtt: MqttHandle,
     topic_prefix: String,
+    live: crate::http::LiveView,
 ) -> AckerSummary {
     let queue = Arc::new(StateQueue::default());
     let publisher = tokio::spawn(publish_states(queue.clone(), mqtt.clone(), topic_prefix));
@@ -101,6 +103,7 @@ pub async fn run_acker(
         summary.readings_inserted += report.inserted;
         summary.duplicates += report.duplicates;
         summary.rejections_stored += report.rejections;
+        live.record_commit(report.rows, report.commit_latency);
         tracing::debug!(
             inserted = report.inserted,
             duplicates = report.duplicates,
@@ -116,6 +119,7 @@ pub async fn run_acker(
                 }
             }
             if let Some((time, state)) = pending.state {
+                live.set_tank_state(time, state.clone());
                 queue.offer(time, state);
             }
         }

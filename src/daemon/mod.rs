@@ -19,6 +19,7 @@ pub mod alerting;
 pub mod connection;
 pub mod counters;
 pub mod handler;
+pub mod live_updates;
 pub mod shutdown;
 pub mod tank_state;
 
@@ -64,9 +65,25 @@ pub struct RunSummary {
     pub acks_sent: u64,
 }
 
+/// What a caller embedding the daemon (the demo, tests) may ask of it.
+#[derive(Debug, Default)]
+pub struct DaemonHooks {
+    /// Hears the address the HTTP server listens on, once it does.
+    pub http_addr: Option<tokio::sync::oneshot::Sender<std::net::SocketAddr>>,
+}
+
 /// Runs the daemon until `shutdown` turns true; then stops taking messages, commits, acks,
 /// publishes `offline` and returns.
-pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
+pub async fn run(config: Config, shutdown: watch::Receiver<bool>) -> anyhow::Result<RunSummary> {
+    run_with(config, shutdown, DaemonHooks::default()).await
+}
+
+/// [`run`] with hooks.
+pub async fn run_with(
+    config: Config,
+    mut shutdown: watch::Receiver<bool>,
+    hooks: DaemonHooks,
+) -> anyhow::Result<RunSummary> {
     let started_at = Utc::now();
     let profiles = tank_profiles(&config)?;
     let mut alerting = alerting::Alerting::new(&config, &profiles)?;
@@ -91,6 +108,8 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     let highest_id = reader.max_alert_id().context("cannot read the stored alerts")?;
     let restore_report = alerting.restore(restored, highest_id);
     tracing::info!(?restore_report, highest_id, "open alerts restored");
+    let live = live_updates::Live::start(&config, &profiles, hooks.http_addr).await?;
+    live.view.set_open_alerts(alerting.open_alerts());
 
     let options = connection::connection_options(&config)?;
     let filters = subscriptions(&config);
@@ -108,6 +127,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
         reports,
         mqtt.clone(),
         config.publish.topic_prefix.clone(),
+        live.view.clone(),
     ));
 
     let (alert_tx, alert_rx) = tokio::sync::mpsc::channel(ALERT_QUEUE);
@@ -154,7 +174,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                     break;
                 }
                 let events = handler.take_alert_events();
-                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
+                if emit_alert_events(&writer, &alert_tx, &live.view, events).await.is_err() {
                     break;
                 }
             }
@@ -186,13 +206,14 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                     }
                     Err(err) => tracing::warn!(error = %err, "cannot read acknowledgement requests"),
                 }
-                if emit_alert_events(&writer, &alert_tx, events).await.is_err() {
+                if emit_alert_events(&writer, &alert_tx, &live.view, events).await.is_err() {
                     break;
                 }
             }
             _ = link.changed() => {
                 let state = link.borrow_and_update().clone();
                 log_link_change(&state);
+                live.view.set_link(&state);
             }
             _ = state_tick.tick() => {
                 let now = Utc::now();
@@ -206,6 +227,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
                         "broker unreachable; readings wait at the broker"
                     );
                 }
+                live.on_state_tick(&state, handler.counters(), &writer);
                 let row = daemon_state_row(started_at, &state, handler.counters());
                 if writer.send(WriteItem::DaemonState(row)).await.is_err() {
                     break;
@@ -242,6 +264,7 @@ pub async fn run(config: Config, mut shutdown: watch::Receiver<bool>) -> anyhow:
     }
     let writer_result = tokio::task::spawn_blocking(move || writer_thread.join()).await;
     let acked: AckerSummary = acker.await.unwrap_or_default();
+    live.stop().await;
     if let Err(err) = mqtt.shutdown(MQTT_SHUTDOWN_TIMEOUT).await {
         tracing::warn!(error = %err, "MQTT shutdown incomplete");
     }
@@ -292,12 +315,14 @@ pub fn tank_profiles(config: &Config) -> anyhow::Result<Vec<Option<SpeciesProfil
 async fn emit_alert_events(
     writer: &WriterHandle<Pending>,
     publisher: &tokio::sync::mpsc::Sender<crate::alerts::AlertEvent>,
+    live: &crate::http::LiveView,
     events: Vec<crate::alerts::AlertEvent>,
 ) -> Result<(), StorageError> {
     for event in events {
         tracing::info!(event = event.name(), alert = %event.id(), tank = %event.alert().tank,
             severity = event.severity().as_str(), "{}", event.message());
         writer.send(WriteItem::Alert(event.alert().clone())).await?;
+        live.set_alert(event.alert());
         if publisher.try_send(event).is_err() {
             tracing::warn!("alert publisher queue full; event not published");
         }

@@ -9,12 +9,14 @@
 //! - [`exchange`], [`flow`], [`salt`], [`blend`]: the four methods' mass balances.
 //! - [`checks`]: warnings (limits, freezing, fitted range).
 //! - [`plan`]: request in, step table out.
+//! - [`inputs`]: what a person fills in (CLI options, the HTTP form) to a request.
 pub mod blend;
 pub mod checks;
 pub mod error;
 pub mod exchange;
 pub mod flow;
 pub mod from_species;
+pub mod inputs;
 pub mod limits;
 pub mod plan;
 pub mod ramp;
@@ -25,6 +27,7 @@ pub use blend::{blend_batch, BlendBatch, BlendRequest};
 pub use checks::{PlanWarning, WarningCode};
 pub use error::PlanError;
 pub use flow::FlowShortfall;
+pub use inputs::{build_request, InputsError, MethodChoice, PlanInputs, RequiredInput};
 pub use limits::{Direction, RateCaps, RateLimits, SalinityLimits};
 pub use plan::{make_plan, Assumptions, Method, Plan, PlanRequest, Step, StepKind, Totals};
 pub use ramp::{Hold, Ramp, RampShape};

@@ -182,3 +182,99 @@ fn parse_record(json: &str) -> Result<AlertRecord, StorageError> {
         what: format!("alert record: {e}"),
     })
 }
+
+/// Which alerts to list (every filter optional); newest id first, at most `limit`.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct AlertFilter {
+    /// Only open alerts (`state != 'cleared'`).
+    pub open_only: bool,
+    pub tank: Option<String>,
+    /// Kind code (`salinity_optimum`, ...).
+    pub kind: Option<String>,
+    /// Severity code (`info`, `warning`, `critical`).
+    pub severity: Option<String>,
+    /// Only alerts raised at or after this time.
+    pub raised_since: Option<DateTime<Utc>>,
+    pub limit: u32,
+}
+
+/// Alerts matching `filter`, newest id first.
+pub fn select_alerts_filtered(conn: &Connection, filter: &AlertFilter) -> Result<Vec<AlertRecord>, StorageError> {
+    let what = "read alerts";
+    let mut stmt = conn
+        .prepare_cached(
+            "SELECT record_json FROM alerts WHERE (?1 = 0 OR state <> 'cleared') AND (?2 IS NULL OR tank = ?2) \
+             AND (?3 IS NULL OR kind = ?3) AND (?4 IS NULL OR severity = ?4) AND (?5 IS NULL OR raised_at_ms >= ?5) \
+             ORDER BY id DESC LIMIT ?6",
+        )
+        .map_err(StorageError::sqlite(what))?;
+    let rows = stmt
+        .query_map(
+            params![
+                filter.open_only,
+                filter.tank,
+                filter.kind,
+                filter.severity,
+                filter.raised_since.map(time_to_ms),
+                filter.limit
+            ],
+            |row| row.get::<_, String>(0),
+        )
+        .map_err(StorageError::sqlite(what))?;
+    let mut out = Vec::new();
+    for row in rows {
+        let json = row.map_err(StorageError::sqlite(what))?;
+        out.push(parse_record(&json)?);
+    }
+    Ok(out)
+}
+
+/// One acknowledgement request with what came of it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct AckRequestStatus {
+    pub request: AckRequest,
+    /// When the daemon (or the command line) handled it; `None` while pending.
+    pub handled_at: Option<DateTime<Utc>>,
+    /// `acknowledged ...` or `refused: <why>`.
+    pub outcome: Option<String>,
+}
+
+/// One acknowledgement request by id.
+pub fn select_ack_request(conn: &Connection, id: i64) -> Result<Option<AckRequestStatus>, StorageError> {
+    let what = "read an acknowledgement request";
+    let row = conn
+        .query_row(
+            "SELECT id, alert_id, by, note, requested_at_ms, handled_at_ms, outcome FROM alert_ack_requests \
+             WHERE id = ?1",
+            [id],
+            |row| {
+                Ok((
+                    row.get::<_, i64>(0)?,
+                    row.get::<_, i64>(1)?,
+                    row.get::<_, String>(2)?,
+                    row.get::<_, Option<String>>(3)?,
+                    row.get::<_, i64>(4)?,
+                    row.get::<_, Option<i64>>(5)?,
+                    row.get::<_, Option<String>>(6)?,
+                ))
+            },
+        )
+        .optional()
+        .map_err(StorageError::sqlite(what))?;
+    let Some((id, alert_id, by, note, requested_ms, handled_ms, outcome)) = row else {
+        return Ok(None);
+    };
+    Ok(Some(AckRequestStatus {
+        request: AckRequest {
+            id,
+            alert_id: u64::try_from(alert_id).map_err(|_| StorageError::CorruptRow {
+                what: format!("negative alert id {alert_id}"),
+            })?,
+            by,
+            note,
+            requested_at: ms_to_time(requested_ms)?,
+        },
+        handled_at: handled_ms.map(ms_to_time).transpose()?,
+        outcome,
+    }))
+}

@@ -5,10 +5,12 @@
 //! - [`retention`]: folds old readings into hourly summaries.
 //! - [`queries`]: read-only connections for `history` and `status`.
 //! - [`alerts`]: alert records and acknowledgement requests.
+//! - [`history_series`]: a tank's history as a chart series of at most N points (bucket means).
 //! - [`schedules`]: stored acclimation schedules (their own read-write connection, checked changes).
 pub mod alerts;
 pub mod codec;
 pub mod error;
+pub mod history_series;
 pub mod insert;
 pub mod queries;
 pub mod retention;
@@ -18,7 +20,8 @@ pub mod schedules;
 pub mod schema;
 pub mod writer;
 
-pub use alerts::AckRequest;
+pub use alerts::{AckRequest, AckRequestStatus, AlertFilter};
+pub use history_series::{Series, SeriesPoint};
 pub use error::StorageError;
 pub use queries::{Reader, ReasonCount, TankReadingCount};
 pub use retention::{RetentionReport, RetentionSettings};

@@ -78,6 +78,48 @@ impl Reader {
         super::alerts::pending_ack_requests(&self.conn)
     }
 
+    /// Alerts matching a filter, newest first (see [`super::alerts::select_alerts_filtered`]).
+    pub fn alerts_filtered(
+        &self,
+        filter: &super::AlertFilter,
+    ) -> Result<Vec<crate::alerts::AlertRecord>, StorageError> {
+        super::alerts::select_alerts_filtered(&self.conn, filter)
+    }
+
+    /// One alert by id.
+    pub fn alert(&self, id: u64) -> Result<Option<crate::alerts::AlertRecord>, StorageError> {
+        super::alerts::select_alert(&self.conn, id)
+    }
+
+    /// One acknowledgement request and its outcome.
+    pub fn ack_request(&self, id: i64) -> Result<Option<super::AckRequestStatus>, StorageError> {
+        super::alerts::select_ack_request(&self.conn, id)
+    }
+
+    /// A tank's history as a series of at most `max_points` points (see [`super::history_series`]).
+    pub fn history_series(
+        &self,
+        tank_id: &str,
+        from: DateTime<Utc>,
+        to: DateTime<Utc>,
+        max_points: usize,
+    ) -> Result<super::Series, StorageError> {
+        super::history_series::history_series(&self.conn, tank_id, from, to, max_points)
+    }
+
+    /// Stored schedules (of one tank, if given), oldest first.
+    pub fn schedules(
+        &self,
+        tank_id: Option<&str>,
+    ) -> Result<Vec<crate::schedule::Schedule>, super::ScheduleStoreError> {
+        super::schedules::list_on(&self.conn, tank_id)
+    }
+
+    /// One stored schedule.
+    pub fn schedule(&self, id: i64) -> Result<crate::schedule::Schedule, super::ScheduleStoreError> {
+        super::schedules::get_in(&self.conn, id)
+    }
+
     /// The database file this reader reads.
     pub fn path(&self) -> &Path {
         &self.path

@@ -144,7 +144,23 @@ fn assemble(conn: &Connection, row: ScheduleRow) -> Result<Schedule, ScheduleSto
     })
 }
 
-fn get_in(conn: &Connection, id: i64) -> Result<Schedule, ScheduleStoreError> {
+/// Every schedule (of one tank, if given), oldest first, on any connection (the reader's too).
+pub(super) fn list_on(conn: &Connection, tank_id: Option<&str>) -> Result<Vec<Schedule>, ScheduleStoreError> {
+    let what = "list schedules";
+    let mut stmt = conn
+        .prepare_cached(&format!(
+            "SELECT {SCHEDULE_COLUMNS} FROM schedules WHERE ?1 IS NULL OR tank_id = ?1 ORDER BY id"
+        ))
+        .map_err(StorageError::sqlite(what))?;
+    let rows = stmt
+        .query_map(params![tank_id], row_from_sql)
+        .map_err(StorageError::sqlite(what))?
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(StorageError::sqlite(what))?;
+    rows.into_iter().map(|row| assemble(conn, row)).collect()
+}
+
+pub(super) fn get_in(conn: &Connection, id: i64) -> Result<Schedule, ScheduleStoreError> {
     let row = load_row(conn, id)?.ok_or(ScheduleStoreError::NotFound { id })?;
     assemble(conn, row)
 }
@@ -256,19 +272,7 @@ impl ScheduleStore {
 
     /// Every schedule (of one tank, if given), oldest first.
     pub fn list(&self, tank_id: Option<&str>) -> Result<Vec<Schedule>, ScheduleStoreError> {
-        let what = "list schedules";
-        let mut stmt = self
-            .conn
-            .prepare_cached(&format!(
-                "SELECT {SCHEDULE_COLUMNS} FROM schedules WHERE ?1 IS NULL OR tank_id = ?1 ORDER BY id"
-            ))
-            .map_err(StorageError::sqlite(what))?;
-        let rows = stmt
-            .query_map(params![tank_id], row_from_sql)
-            .map_err(StorageError::sqlite(what))?
-            .collect::<Result<Vec<_>, _>>()
-            .map_err(StorageError::sqlite(what))?;
-        rows.into_iter().map(|row| assemble(&self.conn, row)).collect()
+        list_on(&self.conn, tank_id)
     }
 
     /// Every open (active or paused) schedule, one per tank at most; what the daemon follows.

@@ -110,6 +110,8 @@ pub struct CommitReport<A> {
     pub transaction_time: Duration,
     /// Transaction attempts (1 unless commits failed and were retried).
     pub attempts: u32,
+    /// Rows the transaction wrote (readings, rejections, alerts, handled requests): the batch size.
+    pub rows: usize,
 }
 
 /// Totals over the writer's life, returned when its thread ends.
@@ -144,6 +146,8 @@ enum Message<A> {
 struct Shared {
     abandon: AtomicBool,
     failed_attempts: AtomicU64,
+    /// The latest transaction attempt failed (cleared by the next successful commit).
+    last_attempt_failed: AtomicBool,
 }
 
 /// The async side's end of the writer. Cheap to clone; the writer stops when every clone is dropped.
@@ -234,6 +238,11 @@ impl<A: Send + 'static> WriterHandle<A> {
     /// Failed transaction attempts so far (each was rolled back and retried).
     pub fn failed_commit_attempts(&self) -> u64 {
         self.shared.failed_attempts.load(Ordering::SeqCst)
+    }
+
+    /// Whether the latest transaction attempt failed (the writer is retrying it).
+    pub fn last_commit_failed(&self) -> bool {
+        self.shared.last_attempt_failed.load(Ordering::SeqCst)
     }
 }
 
@@ -446,9 +455,13 @@ impl<A: Send + 'static> Writer<A> {
             attempts = attempts.saturating_add(1);
             let started = Instant::now();
             match write_batch(&mut self.conn, &self.batch) {
-                Ok(counts) => break (counts, started.elapsed()),
+                Ok(counts) => {
+                    self.shared.last_attempt_failed.store(false, Ordering::SeqCst);
+                    break (counts, started.elapsed());
+                }
                 Err(err) => {
                     self.shared.failed_attempts.fetch_add(1, Ordering::SeqCst);
+                    self.shared.last_attempt_failed.store(true, Ordering::SeqCst);
                     self.summary.failed_attempts += 1;
                     tracing::warn!(error = %err, attempts, retry_in = ?delay, pending_rows = self.batch.rows(),
                         "storage commit failed; rows kept, acks held, retrying");
@@ -468,6 +481,7 @@ impl<A: Send + 'static> Writer<A> {
                 }
             }
         };
+        let rows = self.batch.rows();
         let batch = std::mem::take(&mut self.batch);
         let report = CommitReport {
             acks: batch.acks,
@@ -478,6 +492,7 @@ impl<A: Send + 'static> Writer<A> {
             commit_latency: oldest.elapsed(),
             transaction_time,
             attempts,
+            rows,
         };
         self.summary.commits += 1;
         self.summary.inserted += report.inserted;

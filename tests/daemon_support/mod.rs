@@ -109,6 +109,9 @@ topic_prefix = "{prefix}"
 [ingest]
 subscribe = ["{root}/#"]
 
+[http]
+bind = "127.0.0.1:0"
+
 [[tanks]]
 id = "{JSON_TANK}"
 name = "Smolt test tank E1 (combined JSON)"
