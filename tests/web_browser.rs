@@ -16,7 +16,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
 use std::time::Duration;
 
-use chrono::{DateTime, SecondsFormat, TimeDelta, Utc};
+use chrono::{DateTime, SecondsFormat, SubsecRound, TimeDelta, Utc};
 use fantoccini::{Client, ClientBuilder, Locator};
 use halotank::alerts::AlertRecord;
 use halotank::mqtt::EmbeddedBroker;
@@ -301,13 +301,18 @@ where
     }
 }
 
+/// Scrolls the element to the middle of the window (as a person would, clear of the fixed caution
+/// strip at the bottom) and clicks it.
 async fn click(c: &Client, css: &str) {
-    c.find(Locator::Css(css))
+    let e = c
+        .find(Locator::Css(css))
         .await
-        .unwrap_or_else(|e| panic!("no element {css}: {e}"))
-        .click()
+        .unwrap_or_else(|e| panic!("no element {css}: {e}"));
+    let arg = serde_json::to_value(&e).unwrap();
+    c.execute("arguments[0].scrollIntoView({block: 'center'}); return true", vec![arg])
         .await
-        .unwrap_or_else(|e| panic!("click {css}: {e}"));
+        .unwrap();
+    e.click().await.unwrap_or_else(|e| panic!("click {css}: {e}"));
 }
 
 async fn type_into(c: &Client, css: &str, text: &str) {
@@ -402,20 +407,30 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
         root,
     };
 
-    // Readings: the alert tank inside its optimum, the fish tank, and one old reading for the stale tank.
-    let t0 = Utc::now() - TimeDelta::seconds(60);
+    // Eight hours of history inside the optimum for the charts (every 10 min), then the readings the
+    // cards must show: the alert tank, the fish tank, and one old reading for the stale tank.
+    let t0 = (Utc::now() - TimeDelta::seconds(60)).trunc_subsecs(3);
+    for i in (1..=48).rev() {
+        let wave = (f64::from(i) / 7.0).sin();
+        let at = t0 - TimeDelta::minutes(10 * i64::from(i));
+        probe
+            .send(ALERT_TANK, inside - 1.5 + 0.04 * f64::from(i) + 0.4 * wave, at)
+            .await;
+        probe.send(FISH_TANK, smolt_sp + 0.5 * wave, at).await;
+    }
     let c1 = probe.send(ALERT_TANK, inside, t0).await;
     probe.send(FISH_TANK, smolt_sp, t0).await;
-    probe
-        .send(STALE_TANK, 0.5, Utc::now() - TimeDelta::minutes(90))
-        .await;
-    wait_db("three stored readings", || {
+    let stale_at = (Utc::now() - TimeDelta::minutes(90)).trunc_subsecs(3);
+    probe.send(STALE_TANK, 0.5, stale_at).await;
+    wait_db("the latest readings stored", || {
         Reader::open(&db)
             .ok()
             .map(|r| {
-                [ALERT_TANK, FISH_TANK, STALE_TANK]
-                    .iter()
-                    .all(|t| r.history(t, None, None).is_ok_and(|h| !h.is_empty()))
+                [ALERT_TANK, FISH_TANK, STALE_TANK].iter().all(|t| {
+                    let since = if *t == STALE_TANK { stale_at } else { t0 };
+                    r.history(t, None, None)
+                        .is_ok_and(|h| h.iter().any(|row| row.time >= since))
+                })
             })
             .filter(|all| *all)
     })
@@ -584,6 +599,77 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
         "the page should show it is unlocked"
     );
     screenshot(&page, "alerts-light.png").await;
+
+    // A plan for the fish tank (its volume, species and salinity come from the daemon), started as a
+    // schedule, and its first step marked done from the tank view (the name is the one given above).
+    page.goto(&format!("http://{http}/#/plan?tank={FISH_TANK}"))
+        .await
+        .unwrap();
+    wait_page(&page, "the tank in the plan form", || async {
+        let v = page
+            .execute(
+                "return document.querySelector('[data-testid=\"plan-tank\"]').value",
+                vec![],
+            )
+            .await
+            .ok()?;
+        (v == serde_json::json!(FISH_TANK)).then_some(())
+    })
+    .await;
+    let target = 20.0;
+    type_into(&page, "[data-testid=\"plan-to\"]", &format!("{target}")).await;
+    type_into(&page, "[data-testid=\"plan-source_practical_salinity\"]", "0").await;
+    type_into(&page, "[data-testid=\"plan-interval_h\"]", "1").await;
+    // 2 SP per hour, linear: about six hourly steps.
+    let shape = page.find(Locator::Css("[data-testid=\"plan-shape\"]")).await.unwrap();
+    shape.select_by_value("linear").await.unwrap();
+    type_into(&page, "[data-testid=\"plan-rate\"]", "2").await;
+    click(&page, "[data-testid=\"plan-submit\"]").await;
+    let rows_css = "[data-testid=\"plan-result\"] [data-testid=\"step-table\"] tbody tr";
+    let planned_rows = wait_page(&page, "the plan's step table", || async {
+        let rows = page.find_all(Locator::Css(rows_css)).await.ok()?;
+        (!rows.is_empty()).then_some(rows.len())
+    })
+    .await;
+    click(&page, "[data-testid=\"plan-start\"]").await;
+    let schedule = wait_db("the schedule in the database", || {
+        Reader::open(&db)
+            .ok()?
+            .schedules(Some(FISH_TANK))
+            .ok()?
+            .into_iter()
+            .find(|s| s.state.is_open())
+    })
+    .await;
+    assert_eq!(schedule.plan.steps.len(), planned_rows, "steps shown vs stored");
+    assert!(planned_rows >= 2, "a plan of {planned_rows} step(s): the schedule would end at once");
+    assert_eq!(schedule.plan.to_practical_salinity, target);
+    let step_done = "[data-testid=\"step-done\"][data-step=\"1\"]";
+    wait_page(&page, "the step-done button of step 1", || async {
+        page.find(Locator::Css(step_done)).await.ok().map(|_| ())
+    })
+    .await;
+    click(&page, step_done).await;
+    let done = wait_db("step 1 done in the database", || {
+        Reader::open(&db)
+            .ok()?
+            .schedule(schedule.id)
+            .ok()
+            .filter(|s| !s.steps_done.is_empty())
+    })
+    .await;
+    assert_eq!(done.steps_done[0].step, 1);
+    assert_eq!(done.steps_done[0].by, ACK_BY);
+    wait_page(&page, "step 1 shown done", || async {
+        page.find(Locator::Css(
+            "[data-testid=\"step-table\"] tr.row-done[data-step=\"1\"]",
+        ))
+        .await
+        .ok()
+        .map(|_| ())
+    })
+    .await;
+    screenshot(&page, "tank-schedule-light.png").await;
     page.close().await.unwrap();
 
     // The dark theme, from the system setting.

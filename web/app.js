@@ -214,8 +214,8 @@ function alertLine(a) {
     h("span", { class: "sev-word" }, a.severity),
     "\u00a0",
     h("span", {}, words(a.kind)),
-    a.state === "acknowledged" ? h("span", { class: "muted" }, " · acknowledged") : null,
-    a.state === "cleared_unacknowledged" ? h("span", { class: "muted" }, " · cleared, awaiting ack") : null,
+    a.state === "acknowledged" ? h("span", { class: "muted" }, "\u00a0· acknowledged") : null,
+    a.state === "cleared_unacknowledged" ? h("span", { class: "muted" }, "\u00a0· cleared, awaiting ack") : null,
   );
 }
 
@@ -273,7 +273,7 @@ function tankCard(card, { link = true } = {}) {
     h("header", { class: "card-head" },
       h("h2", { "data-testid": "tank-name" }, title),
       h("p", { class: "species", "data-testid": "species" },
-        species ? `${species.common_name}${species.stage ? ` (${species.stage})` : ""}` : "no species set",
+        species ? [h("strong", {}, species.common_name), species.stage ? `, ${species.stage}` : ""] : "no species set",
         h("span", { class: "tank-id" }, ` · ${card.id}`))),
     status,
     h("div", { class: "values" },
@@ -486,14 +486,19 @@ function tankView(id) {
   }
 
   async function loadSchedule() {
-    const list = await api.schedules({ tank: id, state: "open" });
+    const list = await api.schedules({ tank: id, state: "all" });
     const items = (list && list.schedules) || [];
-    if (!items.length) {
+    // The open schedule, else the latest one (completed or aborted) so its record stays in view.
+    const isOpen = (x) => ["active", "paused"].includes((x.state && x.state.state) || x.state || (x.progress && x.progress.state));
+    const pick = items.find(isOpen) || items[items.length - 1];
+    if (!pick) {
       scheduleBox.replaceChildren(h("h2", {}, "Schedule"), h("p", { class: "muted" }, "No schedule runs on this tank. ", h("a", { href: `#/plan?tank=${encodeURIComponent(id)}` }, "Make a plan"), " to start one."));
       return;
     }
-    const detail = await api.schedule(items[0].id);
-    scheduleBox.replaceChildren(h("h2", {}, "Schedule"), ...scheduleDetail(detail, reloadSchedule));
+    const detail = await api.schedule(pick.id);
+    const title = isOpen(pick) ? "Schedule" : "Last schedule";
+    scheduleBox.replaceChildren(h("h2", {}, title), ...scheduleDetail(detail, reloadSchedule),
+      isOpen(pick) ? null : h("p", {}, h("a", { href: `#/plan?tank=${encodeURIComponent(id)}` }, "Make a new plan")));
   }
   const reloadSchedule = () => loadSchedule().catch((err) => say("error", explain(err)));
 
@@ -715,7 +720,7 @@ function alertTable(alerts, { showTank = true, onChange = null } = {}) {
     const ack = a.acknowledgement;
     return h(
       "li",
-      { class: `alert-row sev-${a.severity} state-${a.state}`, "data-testid": "alert-row", "data-alert-id": a.id, "data-alert-state": a.state },
+      { class: `alert-row row-sev-${a.severity} state-${a.state}`, "data-testid": "alert-row", "data-alert-id": a.id, "data-alert-state": a.state },
       h("div", { class: "alert-main" },
         h("p", { class: "alert-title" },
           h("span", { class: `sev sev-${a.severity}` }, mark(severityShape(a.severity)), a.severity),
@@ -797,6 +802,7 @@ function planView(params) {
     temperature_C: numberInput("temperature_C"),
     source_practical_salinity: numberInput("source_practical_salinity", { min: 0, max: 42 }),
     interval_h: numberInput("interval_h", { min: 0 }),
+    rate: numberInput("rate", { min: 0 }),
     max_flow_L_min: numberInput("max_flow_L_min", { min: 0 }),
     holds: h("input", { type: "text", name: "holds", placeholder: "12@12, 20@6", "data-testid": "plan-holds", autocomplete: "off" }),
     start: h("input", { type: "datetime-local", name: "start", "data-testid": "plan-start-time" }),
@@ -830,6 +836,7 @@ function planView(params) {
       only("blend", field("Batch volume, L", inputs.batch_volume_L)),
       field("Interval, h", inputs.interval_h),
       field("Ramp shape", shape),
+      field("Rate per hour", inputs.rate, "in the shape's unit: SP, % or mOsm/kg; blank: the species' limit"),
       field("Holds SP@hours", inputs.holds, "comma separated"),
       only("flow", field("Max flow, L/min", inputs.max_flow_L_min)),
       field("First step at", inputs.start, "blank: now")),
@@ -849,7 +856,7 @@ function planView(params) {
   function readForm() {
     const f = { method: method.value };
     if (tankSel.value) f.tank = tankSel.value;
-    const numeric = ["volume_L", "from", "to", "temperature_C", "source_practical_salinity", "interval_h", "max_flow_L_min",
+    const numeric = ["volume_L", "from", "to", "temperature_C", "source_practical_salinity", "interval_h", "rate", "max_flow_L_min",
       "top_up_practical_salinity", "source_a_practical_salinity", "source_b_practical_salinity", "batch_volume_L"];
     for (const k of numeric) {
       if (inputs[k].closest("[data-methods]")?.hidden) continue;

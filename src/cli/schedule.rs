@@ -216,7 +216,11 @@ fn start(args: &StartArgs, out: &mut impl Write) -> anyhow::Result<()> {
 }
 
 fn write_json(out: &mut impl Write, s: &Schedule, now: DateTime<Utc>) -> anyhow::Result<()> {
-    writeln!(out, "{}", serde_json::to_string_pretty(&ScheduleReport::at(s, now))?)?;
+    writeln!(
+        out,
+        "{}",
+        serde_json::to_string_pretty(&ScheduleReport::at(s, now))?
+    )?;
     Ok(())
 }
 

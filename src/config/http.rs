@@ -111,7 +111,9 @@ impl RawHttp {
             Some(text) => text.parse::<SocketAddr>().map_err(|_| {
                 Invalid::new(
                     path.key("bind"),
-                    format!("`{text}` is not an address and port such as \"127.0.0.1:8480\" or \"[::1]:8480\""),
+                    format!(
+                        "`{text}` is not an address and port such as \"127.0.0.1:8480\" or \"[::1]:8480\""
+                    ),
                 )
             })?,
         };

@@ -46,7 +46,10 @@ impl Live {
                 stop,
             });
         }
-        let token = config.http.resolve_token().context("cannot read the HTTP token")?;
+        let token = config
+            .http
+            .resolve_token()
+            .context("cannot read the HTTP token")?;
         if token.is_none() {
             tracing::warn!(
                 source = %config.http.describe_token_source(),
@@ -87,7 +90,10 @@ impl Live {
     pub async fn stop(self) {
         let _ = self.stop.send(true);
         if let Some(server) = self.server {
-            if tokio::time::timeout(HTTP_STOP_TIMEOUT, server.task).await.is_err() {
+            if tokio::time::timeout(HTTP_STOP_TIMEOUT, server.task)
+                .await
+                .is_err()
+            {
                 tracing::warn!("HTTP requests still open at shutdown were dropped");
             }
         }

@@ -103,7 +103,9 @@ pub async fn acknowledge(
     }
     let note = body.note.map(|n| n.trim().to_string()).filter(|n| !n.is_empty());
     if note.as_ref().is_some_and(|n| n.chars().count() > MAX_NOTE_CHARS) {
-        return Err(ApiError::bad_request(format!("`note` is longer than {MAX_NOTE_CHARS} characters")));
+        return Err(ApiError::bad_request(format!(
+            "`note` is longer than {MAX_NOTE_CHARS} characters"
+        )));
     }
     let request_id = state
         .db()
@@ -112,12 +114,15 @@ pub async fn acknowledge(
             let record = crate::storage::alerts::select_alert(&conn, id)?
                 .ok_or_else(|| ApiError::not_found(format!("no alert {id}")))?;
             match record.state {
-                AlertState::Cleared => return Err(ApiError::conflict(format!("alert {id} is already cleared"))),
+                AlertState::Cleared => {
+                    return Err(ApiError::conflict(format!("alert {id} is already cleared")))
+                }
                 AlertState::Acknowledged => {
                     let who = record.acknowledgement.as_ref();
                     return Err(ApiError::conflict(format!(
                         "alert {id} was already acknowledged{}",
-                        who.map(|a| format!(" by {} at {}", a.by, stamp(a.at))).unwrap_or_default()
+                        who.map(|a| format!(" by {} at {}", a.by, stamp(a.at)))
+                            .unwrap_or_default()
                     )));
                 }
                 AlertState::Raised | AlertState::ClearedUnacknowledged => {}
@@ -142,7 +147,10 @@ pub async fn ack_request(
     Params::new(query, &[])?;
     let status = state
         .db()
-        .read(move |r| r.ack_request(id)?.ok_or_else(|| ApiError::not_found(format!("no acknowledgement request {id}"))))
+        .read(move |r| {
+            r.ack_request(id)?
+                .ok_or_else(|| ApiError::not_found(format!("no acknowledgement request {id}")))
+        })
         .await?;
     let (outcome, reason) = match status.outcome.as_deref() {
         None => ("pending", None),

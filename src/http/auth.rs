@@ -25,7 +25,11 @@ pub fn constant_time_eq(a: &[u8], b: &[u8]) -> bool {
 }
 
 /// Checks an `Authorization` header value against the expected token.
-pub fn check(header: Option<&str>, expected: Option<&str>, token_source: &str) -> Result<Authorized, ApiError> {
+pub fn check(
+    header: Option<&str>,
+    expected: Option<&str>,
+    token_source: &str,
+) -> Result<Authorized, ApiError> {
     let Some(expected) = expected else {
         return Err(ApiError::unauthorized(format!(
             "changes are disabled: no HTTP token is configured; set one in {token_source} \
@@ -43,7 +47,9 @@ pub fn check(header: Option<&str>, expected: Option<&str>, token_source: &str) -
         .map(str::trim)
         .unwrap_or("");
     if given.is_empty() || !constant_time_eq(given.as_bytes(), expected.as_bytes()) {
-        return Err(ApiError::unauthorized("the bearer token is not the configured one"));
+        return Err(ApiError::unauthorized(
+            "the bearer token is not the configured one",
+        ));
     }
     Ok(Authorized)
 }
@@ -72,7 +78,12 @@ mod tests {
         assert!(check(Some("Bearer abd"), Some("abc"), "x").is_err());
         assert!(check(Some("abc"), Some("abc"), "x").is_err());
         assert!(check(None, Some("abc"), "x").is_err());
-        let none = check(Some("Bearer abc"), None, "environment variable HALOTANK_HTTP_TOKEN").unwrap_err();
+        let none = check(
+            Some("Bearer abc"),
+            None,
+            "environment variable HALOTANK_HTTP_TOKEN",
+        )
+        .unwrap_err();
         assert!(none.message.contains("HALOTANK_HTTP_TOKEN"), "{}", none.message);
     }
 }

@@ -81,7 +81,9 @@ pub async fn history(
     }
     let now = Utc::now();
     let to = params.time("to")?.unwrap_or(now);
-    let from = params.time("from")?.unwrap_or(to - Duration::hours(DEFAULT_RANGE_H));
+    let from = params
+        .time("from")?
+        .unwrap_or(to - Duration::hours(DEFAULT_RANGE_H));
     if from >= to {
         return Err(ApiError::bad_request(format!(
             "`from` ({}) must be before `to` ({})",

@@ -114,7 +114,11 @@ impl LiveView {
         let mut data = self.write();
         if schedule.state.is_open() {
             data.schedules.insert(schedule.tank_id.clone(), schedule.clone());
-        } else if data.schedules.get(&schedule.tank_id).is_some_and(|s| s.id == schedule.id) {
+        } else if data
+            .schedules
+            .get(&schedule.tank_id)
+            .is_some_and(|s| s.id == schedule.id)
+        {
             data.schedules.remove(&schedule.tank_id);
         }
     }

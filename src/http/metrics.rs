@@ -73,20 +73,64 @@ fn histogram(out: &mut String, name: &str, help: &str, h: &Histogram) {
 }
 
 /// The whole exposition text.
-pub fn render(data: &LiveData, responses: &std::collections::BTreeMap<u16, u64>, now: chrono::DateTime<Utc>) -> String {
+pub fn render(
+    data: &LiveData,
+    responses: &std::collections::BTreeMap<u16, u64>,
+    now: chrono::DateTime<Utc>,
+) -> String {
     let mut out = String::with_capacity(4096 + data.tanks.len() * 80);
     let c = &data.counters;
-    family(&mut out, "halotank_readings_accepted_total", "counter", "Readings accepted and handed to storage.");
-    sample(&mut out, "halotank_readings_accepted_total", &[], c.readings as f64);
-    family(&mut out, "halotank_messages_accepted_total", "counter", "MQTT messages that yielded stored readings.");
-    sample(&mut out, "halotank_messages_accepted_total", &[], c.accepted_messages as f64);
-    family(&mut out, "halotank_messages_rejected_total", "counter", "MQTT messages rejected, by reason.");
+    family(
+        &mut out,
+        "halotank_readings_accepted_total",
+        "counter",
+        "Readings accepted and handed to storage.",
+    );
+    sample(
+        &mut out,
+        "halotank_readings_accepted_total",
+        &[],
+        c.readings as f64,
+    );
+    family(
+        &mut out,
+        "halotank_messages_accepted_total",
+        "counter",
+        "MQTT messages that yielded stored readings.",
+    );
+    sample(
+        &mut out,
+        "halotank_messages_accepted_total",
+        &[],
+        c.accepted_messages as f64,
+    );
+    family(
+        &mut out,
+        "halotank_messages_rejected_total",
+        "counter",
+        "MQTT messages rejected, by reason.",
+    );
     for (reason, n) in &c.rejected {
-        sample(&mut out, "halotank_messages_rejected_total", &[("reason", reason)], *n as f64);
+        sample(
+            &mut out,
+            "halotank_messages_rejected_total",
+            &[("reason", reason)],
+            *n as f64,
+        );
     }
-    family(&mut out, "halotank_messages_ignored_total", "counter", "MQTT messages ignored, by reason.");
+    family(
+        &mut out,
+        "halotank_messages_ignored_total",
+        "counter",
+        "MQTT messages ignored, by reason.",
+    );
     for (reason, n) in &c.ignored {
-        sample(&mut out, "halotank_messages_ignored_total", &[("reason", reason)], *n as f64);
+        sample(
+            &mut out,
+            "halotank_messages_ignored_total",
+            &[("reason", reason)],
+            *n as f64,
+        );
     }
     family(
         &mut out,
@@ -101,18 +145,57 @@ pub fn render(data: &LiveData, responses: &std::collections::BTreeMap<u16, u64>,
         .collect();
     tanks.sort_by(|a, b| a.0.cmp(b.0));
     for (tank, age) in tanks {
-        sample(&mut out, "halotank_tank_last_reading_age_seconds", &[("tank", tank)], age);
+        sample(
+            &mut out,
+            "halotank_tank_last_reading_age_seconds",
+            &[("tank", tank)],
+            age,
+        );
     }
-    family(&mut out, "halotank_open_alerts", "gauge", "Open alerts, by severity.");
+    family(
+        &mut out,
+        "halotank_open_alerts",
+        "gauge",
+        "Open alerts, by severity.",
+    );
     for severity in ["info", "warning", "critical"] {
-        let n = data.alerts.values().filter(|a| a.severity.as_str() == severity).count();
-        sample(&mut out, "halotank_open_alerts", &[("severity", severity)], n as f64);
+        let n = data
+            .alerts
+            .values()
+            .filter(|a| a.severity.as_str() == severity)
+            .count();
+        sample(
+            &mut out,
+            "halotank_open_alerts",
+            &[("severity", severity)],
+            n as f64,
+        );
     }
     let link = data.link.as_ref();
-    family(&mut out, "halotank_mqtt_connected", "gauge", "1 while connected to the MQTT broker, else 0.");
-    sample(&mut out, "halotank_mqtt_connected", &[], f64::from(u8::from(link.is_some_and(|l| l.connected))));
-    family(&mut out, "halotank_mqtt_reconnects_total", "counter", "Reconnections to the MQTT broker.");
-    sample(&mut out, "halotank_mqtt_reconnects_total", &[], link.map_or(0, |l| l.reconnects) as f64);
+    family(
+        &mut out,
+        "halotank_mqtt_connected",
+        "gauge",
+        "1 while connected to the MQTT broker, else 0.",
+    );
+    sample(
+        &mut out,
+        "halotank_mqtt_connected",
+        &[],
+        f64::from(u8::from(link.is_some_and(|l| l.connected))),
+    );
+    family(
+        &mut out,
+        "halotank_mqtt_reconnects_total",
+        "counter",
+        "Reconnections to the MQTT broker.",
+    );
+    sample(
+        &mut out,
+        "halotank_mqtt_reconnects_total",
+        &[],
+        link.map_or(0, |l| l.reconnects) as f64,
+    );
     histogram(
         &mut out,
         "halotank_writer_batch_size_rows",
@@ -131,10 +214,25 @@ pub fn render(data: &LiveData, responses: &std::collections::BTreeMap<u16, u64>,
         "counter",
         "Storage transaction attempts that failed and were retried.",
     );
-    sample(&mut out, "halotank_writer_commit_failures_total", &[], data.writer.failed_attempts as f64);
-    family(&mut out, "halotank_http_requests_total", "counter", "HTTP responses, by status code.");
+    sample(
+        &mut out,
+        "halotank_writer_commit_failures_total",
+        &[],
+        data.writer.failed_attempts as f64,
+    );
+    family(
+        &mut out,
+        "halotank_http_requests_total",
+        "counter",
+        "HTTP responses, by status code.",
+    );
     for (code, n) in responses {
-        sample(&mut out, "halotank_http_requests_total", &[("code", &code.to_string())], *n as f64);
+        sample(
+            &mut out,
+            "halotank_http_requests_total",
+            &[("code", &code.to_string())],
+            *n as f64,
+        );
     }
     out
 }

@@ -13,15 +13,27 @@ use super::error::{ApiError, ApiResult};
 pub struct Params(HashMap<String, String>);
 
 impl Params {
-    pub fn new(query: Result<Query<HashMap<String, String>>, QueryRejection>, known: &[&str]) -> ApiResult<Self> {
-        let Query(map) = query.map_err(|e| ApiError::bad_request(format!("bad query string: {}", e.body_text())))?;
-        let mut unknown: Vec<&str> = map.keys().map(String::as_str).filter(|k| !known.contains(k)).collect();
+    pub fn new(
+        query: Result<Query<HashMap<String, String>>, QueryRejection>,
+        known: &[&str],
+    ) -> ApiResult<Self> {
+        let Query(map) =
+            query.map_err(|e| ApiError::bad_request(format!("bad query string: {}", e.body_text())))?;
+        let mut unknown: Vec<&str> = map
+            .keys()
+            .map(String::as_str)
+            .filter(|k| !known.contains(k))
+            .collect();
         if !unknown.is_empty() {
             unknown.sort_unstable();
             return Err(ApiError::bad_request(format!(
                 "unknown query parameter{} {}; this route takes {}",
                 if unknown.len() == 1 { "" } else { "s" },
-                unknown.iter().map(|k| format!("`{k}`")).collect::<Vec<_>>().join(", "),
+                unknown
+                    .iter()
+                    .map(|k| format!("`{k}`"))
+                    .collect::<Vec<_>>()
+                    .join(", "),
                 if known.is_empty() {
                     "none".to_string()
                 } else {
@@ -36,13 +48,20 @@ impl Params {
     pub fn text(&self, name: &str) -> ApiResult<Option<&str>> {
         match self.0.get(name).map(|v| v.trim()) {
             None => Ok(None),
-            Some("") => Err(ApiError::bad_request(format!("`{name}` is empty; give a value or leave it out"))),
+            Some("") => Err(ApiError::bad_request(format!(
+                "`{name}` is empty; give a value or leave it out"
+            ))),
             Some(v) => Ok(Some(v)),
         }
     }
 
     /// One of `choices` (default `default`).
-    pub fn choice(&self, name: &str, choices: &[&'static str], default: &'static str) -> ApiResult<&'static str> {
+    pub fn choice(
+        &self,
+        name: &str,
+        choices: &[&'static str],
+        default: &'static str,
+    ) -> ApiResult<&'static str> {
         match self.text(name)? {
             None => Ok(default),
             Some(v) => choices.iter().copied().find(|c| *c == v).ok_or_else(|| {
@@ -97,6 +116,8 @@ pub fn path_id(path: Result<Path<String>, PathRejection>, what: &str) -> ApiResu
     let text = path_text(path)?;
     match text.parse::<i64>() {
         Ok(id) if id > 0 => Ok(id),
-        _ => Err(ApiError::bad_request(format!("{what} id `{text}` must be a whole number above 0"))),
+        _ => Err(ApiError::bad_request(format!(
+            "{what} id `{text}` must be a whole number above 0"
+        ))),
     }
 }

@@ -126,7 +126,11 @@ async fn latest_of(state: &AppState, tank: &str) -> ApiResult<Option<(f64, f64)>
 }
 
 /// The planner's request for a form (not a blend), with what the tank fills in.
-pub async fn request_for_form(state: &AppState, form: &PlanForm, now: DateTime<Utc>) -> ApiResult<PlanRequest> {
+pub async fn request_for_form(
+    state: &AppState,
+    form: &PlanForm,
+    now: DateTime<Utc>,
+) -> ApiResult<PlanRequest> {
     let method = match form.method {
         FormMethod::Exchange => MethodChoice::Exchange,
         FormMethod::Flow => MethodChoice::Flow,
@@ -154,10 +158,9 @@ pub async fn request_for_form(state: &AppState, form: &PlanForm, now: DateTime<U
         })?),
         None => tank.and_then(|t| t.profile.clone()),
     };
-    let temperature_c = form
-        .temperature_c
-        .or(latest.map(|(_, t)| t))
-        .ok_or_else(|| ApiError::bad_request("`temperature_C` is required (or a `tank` with a stored reading)"))?;
+    let temperature_c = form.temperature_c.or(latest.map(|(_, t)| t)).ok_or_else(|| {
+        ApiError::bad_request("`temperature_C` is required (or a `tank` with a stored reading)")
+    })?;
     let start = match form.start.as_deref().map(str::trim) {
         None | Some("now") => now,
         Some(text) => parse_time("start", text)?,
@@ -178,8 +181,13 @@ pub async fn request_for_form(state: &AppState, form: &PlanForm, now: DateTime<U
         source_practical_salinity: form.source_practical_salinity,
         max_flow_l_min: form.max_flow_l_min,
         top_up_practical_salinity: form.top_up_practical_salinity.unwrap_or(0.0),
-        dissolve_water_l_per_kg: form.dissolve_water_l_per_kg.unwrap_or(DEFAULT_DISSOLVE_WATER_L_PER_KG),
-        ramp: Ramp { shape, rate: form.rate },
+        dissolve_water_l_per_kg: form
+            .dissolve_water_l_per_kg
+            .unwrap_or(DEFAULT_DISSOLVE_WATER_L_PER_KG),
+        ramp: Ramp {
+            shape,
+            rate: form.rate,
+        },
         rate_limits: RateLimits {
             max_rate_sp_per_h: form.max_rate_sp_per_h,
             max_rate_percent_per_h: form.max_rate_percent_per_h,
@@ -217,7 +225,9 @@ pub async fn request_for_form(state: &AppState, form: &PlanForm, now: DateTime<U
 pub async fn plan(State(state): State<AppState>, body: Bytes) -> ApiResult<Json<Value>> {
     let form: PlanForm = json_body(&body)?;
     let now = Utc::now().trunc_subsecs(0);
-    let json = |v: Result<Value, serde_json::Error>| v.map_err(|e| ApiError::internal(format!("cannot write JSON: {e}")));
+    let json = |v: Result<Value, serde_json::Error>| {
+        v.map_err(|e| ApiError::internal(format!("cannot write JSON: {e}")))
+    };
     if form.method == FormMethod::Blend {
         let need = |v: Option<f64>, name: &str| {
             v.ok_or_else(|| ApiError::bad_request(format!("method blend needs `{name}`")))
@@ -226,8 +236,14 @@ pub async fn plan(State(state): State<AppState>, body: Bytes) -> ApiResult<Json<
         let batch = blend_batch(&BlendRequest {
             batch_volume_l: need(form.batch_volume_l, "batch_volume_L")?,
             target_practical_salinity: form.to,
-            source_a_practical_salinity: need(form.source_a_practical_salinity, "source_a_practical_salinity")?,
-            source_b_practical_salinity: need(form.source_b_practical_salinity, "source_b_practical_salinity")?,
+            source_a_practical_salinity: need(
+                form.source_a_practical_salinity,
+                "source_a_practical_salinity",
+            )?,
+            source_b_practical_salinity: need(
+                form.source_b_practical_salinity,
+                "source_b_practical_salinity",
+            )?,
             temperature_c,
         })
         .map_err(|e| ApiError::bad_request(e.to_string()))?;

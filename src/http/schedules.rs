@@ -37,7 +37,10 @@ pub async fn list(
     let params = Params::new(query, &["tank", "state"])?;
     let open_only = params.choice("state", &["open", "all"], "all")? == "open";
     let tank = params.text("tank")?.map(str::to_string);
-    let schedules = state.db().read(move |r| Ok(r.schedules(tank.as_deref())?)).await?;
+    let schedules = state
+        .db()
+        .read(move |r| Ok(r.schedules(tank.as_deref())?))
+        .await?;
     let now = Utc::now();
     let items: Vec<ScheduleSummary<'_>> = schedules
         .iter()
@@ -137,7 +140,11 @@ enum Action {
 }
 
 async fn change(state: AppState, id: i64, body: Bytes, action: Action) -> ApiResult<Json<Value>> {
-    let parsed: ByBody = if body.is_empty() { ByBody::default() } else { json_body(&body)? };
+    let parsed: ByBody = if body.is_empty() {
+        ByBody::default()
+    } else {
+        json_body(&body)?
+    };
     let by = check_by(parsed.by.as_deref())?;
     let now = Utc::now().trunc_subsecs(3);
     let schedule = state

@@ -45,7 +45,11 @@ pub struct TankInfo {
 }
 
 impl TankInfo {
-    fn new(tank: &crate::config::TankConfig, profile: Option<&SpeciesProfile>, stale_after_s: Option<u64>) -> Self {
+    fn new(
+        tank: &crate::config::TankConfig,
+        profile: Option<&SpeciesProfile>,
+        stale_after_s: Option<u64>,
+    ) -> Self {
         let range = |r: &crate::species::profile::SourcedRange| Some([r.min, r.max]);
         Self {
             id: tank.id.clone(),
@@ -63,7 +67,9 @@ impl TankInfo {
                 optimum_temperature_c: range(&p.temperature_optimum_c),
             }),
             stale_after_s: stale_after_s
-                .map_or(STALE_AFTER_INTERVALS * tank.expected_interval_s as f64, |s| s as f64),
+                .map_or(STALE_AFTER_INTERVALS * tank.expected_interval_s as f64, |s| {
+                    s as f64
+                }),
         }
     }
 }
@@ -108,7 +114,13 @@ impl AppState {
             .tanks
             .iter()
             .enumerate()
-            .map(|(i, t)| TankInfo::new(t, profiles.get(i).and_then(Option::as_ref), config.http.stale_after_s))
+            .map(|(i, t)| {
+                TankInfo::new(
+                    t,
+                    profiles.get(i).and_then(Option::as_ref),
+                    config.http.stale_after_s,
+                )
+            })
             .collect();
         let index = tanks.iter().enumerate().map(|(i, t)| (t.id.clone(), i)).collect();
         Self {

@@ -136,5 +136,7 @@ pub async fn one(
 
 /// 404 for a tank not in the configuration.
 pub fn unknown_tank(id: &str) -> ApiError {
-    ApiError::not_found(format!("no tank `{id}` in the configuration (see GET /api/tanks)"))
+    ApiError::not_found(format!(
+        "no tank `{id}` in the configuration (see GET /api/tanks)"
+    ))
 }

@@ -80,7 +80,10 @@ pub struct PlanInputs {
 }
 
 /// The salinity ranges given explicitly, completed where only one is given.
-fn explicit_salinity_limits(optimum: Option<(f64, f64)>, tolerance: Option<(f64, f64)>) -> Option<SalinityLimits> {
+fn explicit_salinity_limits(
+    optimum: Option<(f64, f64)>,
+    tolerance: Option<(f64, f64)>,
+) -> Option<SalinityLimits> {
     match (optimum, tolerance) {
         (None, None) => None,
         (Some(optimum), Some(tolerance)) => Some(SalinityLimits { optimum, tolerance }),
@@ -97,12 +100,19 @@ fn explicit_salinity_limits(optimum: Option<(f64, f64)>, tolerance: Option<(f64,
     }
 }
 
-fn required(value: Option<f64>, input: RequiredInput, method: Option<&'static str>) -> Result<f64, InputsError> {
+fn required(
+    value: Option<f64>,
+    input: RequiredInput,
+    method: Option<&'static str>,
+) -> Result<f64, InputsError> {
     value.ok_or(InputsError::Missing { input, method })
 }
 
 /// Builds the planner's request; `species` fills the rate limits and salinity ranges not given.
-pub fn build_request(inputs: &PlanInputs, species: Option<&SpeciesProfile>) -> Result<PlanRequest, InputsError> {
+pub fn build_request(
+    inputs: &PlanInputs,
+    species: Option<&SpeciesProfile>,
+) -> Result<PlanRequest, InputsError> {
     let name = Some(inputs.method.name());
     let method = match inputs.method {
         MethodChoice::Exchange => Method::Exchange {

@@ -199,7 +199,10 @@ pub struct AlertFilter {
 }
 
 /// Alerts matching `filter`, newest id first.
-pub fn select_alerts_filtered(conn: &Connection, filter: &AlertFilter) -> Result<Vec<AlertRecord>, StorageError> {
+pub fn select_alerts_filtered(
+    conn: &Connection,
+    filter: &AlertFilter,
+) -> Result<Vec<AlertRecord>, StorageError> {
     let what = "read alerts";
     let mut stmt = conn
         .prepare_cached(

@@ -123,7 +123,10 @@ pub fn history_series(
         let b = ((hour_ms + HOUR_MS / 2 - from_ms) / width).clamp(0, last);
         merge(&mut buckets, b, bucket);
     }
-    let points = buckets.values().map(Bucket::point).collect::<Result<Vec<_>, _>>()?;
+    let points = buckets
+        .values()
+        .map(Bucket::point)
+        .collect::<Result<Vec<_>, _>>()?;
     Ok(Series {
         points,
         downsampled: true,
@@ -188,7 +191,8 @@ fn raw_points(conn: &Connection, tank_id: &str, from_ms: i64, to_ms: i64) -> Res
         .map_err(StorageError::sqlite(what))?;
     let mut points = Vec::new();
     for row in rows {
-        let (ms, practical_salinity, osmolality_mosm_kg, temperature_c) = row.map_err(StorageError::sqlite(what))?;
+        let (ms, practical_salinity, osmolality_mosm_kg, temperature_c) =
+            row.map_err(StorageError::sqlite(what))?;
         points.push(SeriesPoint {
             time: ms_to_time(ms)?,
             practical_salinity,

@@ -21,8 +21,8 @@ pub mod schema;
 pub mod writer;
 
 pub use alerts::{AckRequest, AckRequestStatus, AlertFilter};
-pub use history_series::{Series, SeriesPoint};
 pub use error::StorageError;
+pub use history_series::{Series, SeriesPoint};
 pub use queries::{Reader, ReasonCount, TankReadingCount};
 pub use retention::{RetentionReport, RetentionSettings};
 pub use rows::{DaemonStateRow, HourlyRow, HourlyStats, ReadingRow, RejectionRow, PAYLOAD_PREFIX_MAX_BYTES};
