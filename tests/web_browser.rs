@@ -3,7 +3,8 @@
 //! readings from the embedded MQTT broker. A value just published shows on its tank card and updates in
 //! place, a stale probe is flagged, a raised alert appears, a wrong token is refused with a clear message,
 //! and acknowledging the alert from the page changes its state in the database. Screenshots of the light
-//! and the dark theme are saved in `target/browser-artifacts/`.
+//! and the dark theme are saved in `target/browser-artifacts/`. A plan made in the page's form is started
+//! as a schedule and its first step marked done from the tank view; both land in the database.
 //!
 //! Needs the Debian packages `chromium` and `chromedriver` (`/usr/bin/chromium`, `/usr/bin/chromedriver`,
 //! or the paths in `HALOTANK_TEST_CHROMIUM` and `HALOTANK_TEST_CHROMEDRIVER`). Without them the test
@@ -309,9 +310,12 @@ async fn click(c: &Client, css: &str) {
         .await
         .unwrap_or_else(|e| panic!("no element {css}: {e}"));
     let arg = serde_json::to_value(&e).unwrap();
-    c.execute("arguments[0].scrollIntoView({block: 'center'}); return true", vec![arg])
-        .await
-        .unwrap();
+    c.execute(
+        "arguments[0].scrollIntoView({block: 'center'}); return true",
+        vec![arg],
+    )
+    .await
+    .unwrap();
     e.click().await.unwrap_or_else(|e| panic!("click {css}: {e}"));
 }
 
@@ -621,7 +625,10 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     type_into(&page, "[data-testid=\"plan-source_practical_salinity\"]", "0").await;
     type_into(&page, "[data-testid=\"plan-interval_h\"]", "1").await;
     // 2 SP per hour, linear: about six hourly steps.
-    let shape = page.find(Locator::Css("[data-testid=\"plan-shape\"]")).await.unwrap();
+    let shape = page
+        .find(Locator::Css("[data-testid=\"plan-shape\"]"))
+        .await
+        .unwrap();
     shape.select_by_value("linear").await.unwrap();
     type_into(&page, "[data-testid=\"plan-rate\"]", "2").await;
     click(&page, "[data-testid=\"plan-submit\"]").await;
@@ -631,6 +638,7 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
         (!rows.is_empty()).then_some(rows.len())
     })
     .await;
+    screenshot(&page, "plan-light.png").await;
     click(&page, "[data-testid=\"plan-start\"]").await;
     let schedule = wait_db("the schedule in the database", || {
         Reader::open(&db)
@@ -642,7 +650,10 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     })
     .await;
     assert_eq!(schedule.plan.steps.len(), planned_rows, "steps shown vs stored");
-    assert!(planned_rows >= 2, "a plan of {planned_rows} step(s): the schedule would end at once");
+    assert!(
+        planned_rows >= 2,
+        "a plan of {planned_rows} step(s): the schedule would end at once"
+    );
     assert_eq!(schedule.plan.to_practical_salinity, target);
     let step_done = "[data-testid=\"step-done\"][data-step=\"1\"]";
     wait_page(&page, "the step-done button of step 1", || async {
@@ -695,16 +706,38 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
         "dark session shows the light background"
     );
     screenshot(&dark, "overview-dark.png").await;
-    dark.goto(&format!("http://{http}/#/tank/{ALERT_TANK}"))
+    // The fish tank's view: history lines, the schedule's setpoint line, the plasma's isosmotic band.
+    dark.set_window_size(1280, 2600).await.unwrap();
+    dark.goto(&format!("http://{http}/#/tank/{FISH_TANK}"))
         .await
         .unwrap();
-    wait_page(&dark, "the salinity chart", || async {
-        dark.find(Locator::Css("[data-testid=\"chart-salinity\"] svg path.line"))
-            .await
-            .ok()
-            .map(|_| ())
-    })
-    .await;
+    for (what, css) in [
+        (
+            "the salinity line",
+            "[data-testid=\"chart-salinity\"] svg path.line.s-sal",
+        ),
+        (
+            "the setpoint line",
+            "[data-testid=\"chart-salinity\"] svg path.line.s-set",
+        ),
+        (
+            "the isosmotic band",
+            "[data-testid=\"chart-osmolality\"] svg rect.band-iso",
+        ),
+        (
+            "the temperature line",
+            "[data-testid=\"chart-temperature\"] svg path.line.s-temp",
+        ),
+        (
+            "the step table",
+            "[data-testid=\"schedule-panel\"] [data-testid=\"step-table\"]",
+        ),
+    ] {
+        wait_page(&dark, what, || async {
+            dark.find(Locator::Css(css)).await.ok().map(|_| ())
+        })
+        .await;
+    }
     screenshot(&dark, "tank-dark.png").await;
     dark.close().await.unwrap();
     drop(driver);

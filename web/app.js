@@ -406,6 +406,7 @@ function tankView(id) {
   markRange();
   const chartSal = h("div", { class: "chart-host", "data-testid": "chart-salinity" });
   const chartTemp = h("div", { class: "chart-host", "data-testid": "chart-temperature" });
+  const chartOsm = h("div", { class: "chart-host", "data-testid": "chart-osmolality" });
   const chartNote = h("p", { class: "muted chart-note" });
   const scheduleBox = h("section", { class: "panel", "data-testid": "schedule-panel" }, h("h2", {}, "Schedule"), h("p", { class: "muted" }, "Loading…"));
   const historyBox = h("section", { class: "panel", "data-testid": "alert-history" }, h("h2", {}, "Alert history"), h("p", { class: "muted" }, "Loading…"));
@@ -413,7 +414,7 @@ function tankView(id) {
   view.replaceChildren(
     h("p", { class: "crumbs" }, h("a", { href: "#/" }, "← all tanks")),
     head,
-    h("section", { class: "panel" }, h("h2", {}, "Salinity, osmolality and temperature"), rangeBar, customForm, chartNote, chartSal, chartTemp),
+    h("section", { class: "panel" }, h("h2", {}, "Salinity, osmolality and temperature"), rangeBar, customForm, chartNote, chartSal, chartOsm, chartTemp),
     scheduleBox,
     historyBox,
   );
@@ -454,13 +455,20 @@ function tankView(id) {
     const topt = limits.optimum_temperature_C;
     const sp = history.setpoint || [];
     chartNote.textContent = `${pts.length} point${pts.length === 1 ? "" : "s"}${history.downsampled ? " (averaged per interval; the pale area spans each interval's lowest and highest salinity)" : ""}.`;
+    // A running schedule's planned setpoints ahead of now widen the charts by up to half the range.
+    const now = Date.now();
+    const ahead = Math.max(0, ...sp.map((p) => t(p)).filter((x) => x > to));
+    if (ahead > to && to >= now - 60000) {
+      to = Math.min(ahead, to + (to - from) / 2);
+      chartNote.textContent += " Right of the “now” line: the schedule's planned setpoint.";
+    }
     drawChart(chartSal, {
-      title: "Practical salinity (left) and osmolality (right)",
+      title: "Practical salinity",
       from,
       to,
-      height: 300,
+      now,
+      height: 280,
       left: { label: "SP" },
-      right: { label: "mOsm/kg", fromLeft: linearFit(pts.map((p) => [p.practical_salinity, p.osmolality_mOsm_kg])) },
       bands: [
         tol ? { label: `tolerance SP ${tol[0]}–${tol[1]}`, axis: "left", cls: "band-tol", lo: tol[0], hi: tol[1], inDomain: false } : null,
         opt ? { label: `optimum SP ${opt[0]}–${opt[1]}`, axis: "left", cls: "band-opt", lo: opt[0], hi: opt[1] } : null,
@@ -470,14 +478,31 @@ function tankView(id) {
         : [],
       series: [
         { label: "salinity SP (solid)", axis: "left", style: "solid", cls: "s-sal", points: pts.map((p) => ({ t: t(p), v: p.practical_salinity })) },
-        { label: "osmolality mOsm/kg (dashed, right axis)", axis: "right", style: "dashed", cls: "s-osm", points: pts.map((p) => ({ t: t(p), v: p.osmolality_mOsm_kg })) },
-        sp.length ? { label: "schedule setpoint SP (dotted steps)", axis: "left", style: "dotted", cls: "s-set", stepped: true, points: sp.map((p) => ({ t: t(p), v: p.practical_salinity })) } : null,
+        sp.length ? { label: "schedule setpoint SP (dotted)", axis: "left", style: "dotted", cls: "s-set", unbroken: true, points: sp.map((p) => ({ t: t(p), v: p.practical_salinity })) } : null,
+      ].filter(Boolean),
+    });
+    // Osmolality against the animal's plasma: above the band the water is hyperosmotic, below hypoosmotic.
+    const ton = card && card.latest && card.latest.tonicity;
+    const plasma = ton && ton.plasma_osmolality_mOsm_kg;
+    const band = ton && ton.isosmotic_band_mOsm_kg;
+    drawChart(chartOsm, {
+      title: "Osmolality of the water",
+      from,
+      to,
+      now,
+      height: 220,
+      left: { label: "mOsm/kg" },
+      bands: plasma && band ? [{ label: `isosmotic with plasma ${Math.round(plasma - band)}–${Math.round(plasma + band)} mOsm/kg`, axis: "left", cls: "band-iso", lo: plasma - band, hi: plasma + band }] : [],
+      series: [
+        { label: "osmolality mOsm/kg (solid)", axis: "left", style: "solid", cls: "s-osm", points: pts.map((p) => ({ t: t(p), v: p.osmolality_mOsm_kg })) },
+        plasma ? { label: `plasma ${Math.round(plasma)} mOsm/kg (dashed)`, axis: "left", style: "dashed", cls: "s-set", points: [{ t: from, v: plasma }, { t: to, v: plasma }] } : null,
       ].filter(Boolean),
     });
     drawChart(chartTemp, {
       title: "Temperature",
       from,
       to,
+      now,
       height: 200,
       left: { label: "°C" },
       bands: topt ? [{ label: `optimum ${topt[0]}–${topt[1]} °C`, axis: "left", cls: "band-opt", lo: topt[0], hi: topt[1] }] : [],
@@ -497,8 +522,8 @@ function tankView(id) {
     }
     const detail = await api.schedule(pick.id);
     const title = isOpen(pick) ? "Schedule" : "Last schedule";
-    scheduleBox.replaceChildren(h("h2", {}, title), ...scheduleDetail(detail, reloadSchedule),
-      isOpen(pick) ? null : h("p", {}, h("a", { href: `#/plan?tank=${encodeURIComponent(id)}` }, "Make a new plan")));
+    scheduleBox.replaceChildren(h("div", {}, h("h2", {}, title), scheduleDetail(detail, reloadSchedule),
+      isOpen(pick) ? null : h("p", {}, h("a", { href: `#/plan?tank=${encodeURIComponent(id)}` }, "Make a new plan"))));
   }
   const reloadSchedule = () => loadSchedule().catch((err) => say("error", explain(err)));
 
@@ -572,6 +597,12 @@ function stepAction(s) {
   return parts.join(", ") || "change";
 }
 
+/** Whether a step's moved due time differs from its planned time by a minute or more. */
+function moved(due, planned) {
+  if (!due) return false;
+  return Math.abs(new Date(due).getTime() - new Date(planned).getTime()) >= 60000;
+}
+
 function stepTable(steps, { due = [], done = [], nextStep = null, onDone = null } = {}) {
   const rows = steps.map((s, i) => {
     const d = done.find((x) => x.step === s.index);
@@ -585,7 +616,7 @@ function stepTable(steps, { due = [], done = [], nextStep = null, onDone = null 
       "tr",
       { class: `${d ? "row-done" : ""}${isNext ? " row-next" : ""}`, "data-step": s.index },
       h("td", { class: "num" }, String(s.index)),
-      h("td", {}, when(due[i] || s.time), due[i] && due[i] !== s.time ? h("span", { class: "muted small" }, h("br"), `planned ${when(s.time)}`) : null),
+      h("td", {}, when(due[i] || s.time), moved(due[i], s.time) ? h("span", { class: "muted small" }, h("br"), `planned ${when(s.time)}`) : null),
       h("td", {}, stepAction(s)),
       h("td", { class: "num" }, num(s.from_practical_salinity, 2), " → ", h("strong", {}, num(s.setpoint_practical_salinity, 2))),
       h("td", { class: "num" }, num(s.setpoint_osmolality_mOsm_kg, 0)),
@@ -937,10 +968,9 @@ function planView(params) {
       to: end > start ? end : start + 3600e3,
       height: 260,
       left: { label: "SP" },
-      right: { label: "mOsm/kg", fromLeft: linearFit(pts.slice(1).map((p) => [p.v, p.o])) },
+      right: { label: "≈ mOsm/kg", fromLeft: linearFit(pts.slice(1).map((p) => [p.v, p.o])) },
       series: [
-        { label: "setpoint SP (solid steps)", axis: "left", style: "solid", cls: "s-sal", stepped: true, points: pts.slice(1) },
-        { label: "setpoint osmolality mOsm/kg (dashed, right axis)", axis: "right", style: "dashed", cls: "s-osm", stepped: true, points: pts.slice(1).map((p) => ({ t: p.t, v: p.o })) },
+        { label: "setpoint SP (solid steps; right axis: its osmolality, fitted; the table has each step's exact value)", axis: "left", style: "solid", cls: "s-sal", stepped: true, points: pts.slice(1) },
       ],
     });
   }

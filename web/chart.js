@@ -76,9 +76,9 @@ function extent(values) {
 }
 
 /** Splits points where the gap is far longer than the usual spacing, so missing data shows as a gap. */
-function segments(points, stepped) {
+function segments(points, unbroken) {
   const ok = points.filter((p) => p.v !== null && p.v !== undefined && isFinite(p.v));
-  if (stepped || ok.length < 3) return ok.length ? [ok] : [];
+  if (unbroken || ok.length < 3) return ok.length ? [ok] : [];
   const gaps = [];
   for (let i = 1; i < ok.length; i++) gaps.push(ok[i].t - ok[i - 1].t);
   const sorted = [...gaps].sort((a, b) => a - b);
@@ -102,7 +102,9 @@ function fmtTick(v, step) {
  * opts: {
  *   title, height, from, to (ms),
  *   left: {label, unit}, right: {label, unit}?,
- *   series: [{label, axis: "left"|"right", style: "solid"|"dashed"|"dotted", cls, points: [{t, v}], stepped}],
+ *   series: [{label, axis: "left"|"right", style: "solid"|"dashed"|"dotted", cls, points: [{t, v}],
+ *             stepped (hold each value until the next point), unbroken (never split at long gaps)}],
+ *   now: ms, drawn as a marked vertical line when inside the range,
  *   envelopes: [{label, axis, cls, points: [{t, lo, hi}]}],
  *   bands: [{label, axis, cls, lo, hi}],
  *   empty: text shown when no series has a point
@@ -231,7 +233,7 @@ export function drawChart(host, opts) {
   for (const s of series) {
     const a = axes[s.axis];
     if (!a) continue;
-    for (const seg of segments(s.points, s.stepped)) {
+    for (const seg of segments(s.points, s.stepped || s.unbroken)) {
       let d = "";
       seg.forEach((p, i) => {
         const px = x(p.t).toFixed(1);
@@ -247,6 +249,13 @@ export function drawChart(host, opts) {
         plot.append(el("path", { class: `line ${s.style || "solid"} ${s.cls || ""}`, d }));
       }
     }
+  }
+
+  // "now", when the chart also shows what is planned ahead.
+  if (opts.now && opts.now > t0 && opts.now < t1) {
+    const nx = x(opts.now);
+    svg.append(el("line", { class: "now-line", x1: nx, x2: nx, y1: m.top, y2: m.top + h }));
+    svg.append(el("text", { class: "now-label", x: nx + 4, y: m.top + h - 6 }, "now"));
   }
 
   if (!hasData) {
