@@ -681,6 +681,25 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     })
     .await;
     screenshot(&page, "tank-schedule-light.png").await;
+
+    // Phone width: one column of cards, the values still large.
+    page.set_window_size(390, 1600).await.unwrap();
+    page.goto(&format!("http://{http}/")).await.unwrap();
+    wait_page(&page, "the card at phone width", || async {
+        text_of(&page, &sal_css)
+            .await
+            .filter(|t| !t.is_empty() && t != "–")
+    })
+    .await;
+    let columns = page
+        .execute(
+            "return getComputedStyle(document.querySelector('[data-testid=\"cards\"]')).gridTemplateColumns.split(' ').length",
+            vec![],
+        )
+        .await
+        .unwrap();
+    assert_eq!(columns, serde_json::json!(1), "cards at phone width");
+    screenshot(&page, "overview-phone-light.png").await;
     page.close().await.unwrap();
 
     // The dark theme, from the system setting.

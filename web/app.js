@@ -953,7 +953,7 @@ function planView(params) {
           ` · water ${num(totals.water_L, 0)} L`, totals.drain_L ? ` · drained ${num(totals.drain_L, 0)} L` : "",
           totals.salt_kg ? ` · salt ${num(totals.salt_kg, 2)} kg` : ""),
         (plan.warnings || []).length
-          ? h("ul", { class: "warnings", "data-testid": "plan-warnings" }, plan.warnings.map((w) => h("li", {}, mark("up", "warning: "), w.message)))
+          ? h("ul", { class: "warnings", "data-testid": "plan-warnings" }, plan.warnings.map((w) => h("li", {}, mark("up", "warning:\u00a0"), w.message)))
           : null,
         chartHost,
         stepTable(steps),

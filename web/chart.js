@@ -91,8 +91,10 @@ function segments(points, unbroken) {
   return out;
 }
 
+/** A tick label with as many decimals as the tick step needs (2.5 -> one, 0.25 -> two). */
 function fmtTick(v, step) {
-  const decimals = step >= 1 ? 0 : step >= 0.1 ? 1 : 2;
+  let decimals = 0;
+  while (decimals < 3 && Math.abs(step * 10 ** decimals - Math.round(step * 10 ** decimals)) > 1e-6) decimals++;
   return v.toFixed(decimals);
 }
 
