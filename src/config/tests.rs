@@ -737,3 +737,48 @@ fn bad_alert_settings_name_the_key() {
     let (_, key, _, _) = bad(&text);
     assert!(key.starts_with("alerts.species.pacific_oyster"), "{key}");
 }
+
+#[test]
+fn http_defaults_to_loopback_with_the_token_from_the_environment() {
+    let config = ok(&format!("{BASE}{TANK_A}"));
+    assert!(config.http.enabled);
+    assert_eq!(config.http.bind.to_string(), "127.0.0.1:8480");
+    assert_eq!(config.http.token_env.as_deref(), Some("HALOTANK_HTTP_TOKEN"));
+    assert_eq!(
+        (config.http.token_file.as_ref(), config.http.stale_after_s),
+        (None, None)
+    );
+    let text = format!(
+        "{BASE}[http]\nenabled = false\nbind = \"[::1]:0\"\ntoken_file = \"secrets/http-token\"\nstale_after_s = 300\n{TANK_A}"
+    );
+    let config = ok(&text);
+    assert!(!config.http.enabled);
+    assert_eq!(config.http.bind.to_string(), "[::1]:0");
+    assert_eq!(
+        config.http.token_file.as_deref(),
+        Some(Path::new("/etc/halotank/secrets/http-token"))
+    );
+    assert_eq!(config.http.stale_after_s, Some(300));
+}
+
+#[test]
+fn bad_http_settings_name_line_and_key() {
+    for (setting, key, needle) in [
+        ("bind = \"localhost\"", "http.bind", "address and port"),
+        ("bind = \"127.0.0.1:99999\"", "http.bind", "address and port"),
+        ("token_env = \" \"", "http.token_env", "environment variable"),
+        ("token_file = \"\"", "http.token_file", "file"),
+        ("stale_after_s = 0", "http.stale_after_s", "at least 1"),
+        ("port = 8480", "http", "port"),
+    ] {
+        let text = format!("{BASE}{TANK_A}\n[http]\n{setting}\n");
+        let (line, got_key, message, shown) = bad(&text);
+        assert!(got_key.starts_with(key), "{setting}: {got_key}");
+        assert!(
+            message.contains(needle) || shown.contains(needle),
+            "{setting}: {shown}"
+        );
+        let expected = line_of(&text, setting.split(' ').next().unwrap());
+        assert_eq!(line, Some(expected), "{setting}: {shown}");
+    }
+}
