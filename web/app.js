@@ -52,6 +52,7 @@ function askToken() {
   return new Promise((resolve, reject) => {
     unlockWaiter = { resolve, reject };
     tokenInput.value = "";
+    unlockDialog.returnValue = ""; // Escape keeps the last value: start each opening from "not confirmed"
     unlockDialog.showModal();
     tokenInput.focus();
   });
@@ -421,6 +422,7 @@ function tankView(id) {
 
   let card = null;
   let history = null;
+  let shown = [0, 0];
 
   async function loadCard() {
     card = await api.tank(id);
@@ -433,12 +435,17 @@ function tankView(id) {
     return [new Date(to.getTime() - hours * 3600e3), to];
   }
 
+  let asked = 0;
   async function loadCharts() {
     const [from, to] = range();
+    const mine = ++asked;
     chartNote.textContent = "Loading history…";
     try {
-      history = await api.history(id, from.toISOString(), to.toISOString(), 800);
-      renderCharts(from.getTime(), to.getTime());
+      const answer = await api.history(id, from.toISOString(), to.toISOString(), 800);
+      if (mine !== asked) return; // a later range was chosen meanwhile
+      history = answer;
+      shown = [from.getTime(), to.getTime()];
+      renderCharts(...shown);
     } catch (err) {
       chartNote.textContent = "";
       say("error", explain(err));
@@ -537,8 +544,7 @@ function tankView(id) {
     const w = chartSal.clientWidth;
     if (w && Math.abs(w - lastWidth) > 20 && history) {
       lastWidth = w;
-      const [from, to] = range();
-      renderCharts(from.getTime(), to.getTime());
+      renderCharts(...shown);
     }
   };
   window.addEventListener("resize", onResize);
@@ -693,6 +699,7 @@ function openAck(alert, onChange) {
   ackTitle.textContent = `Acknowledge alert ${alert.id}: ${words(alert.kind)} on ${alert.tank || ""}`;
   ackBy.value = person();
   ackNote.value = "";
+  ackDialog.returnValue = "";
   ackDialog.showModal();
   (ackBy.value ? ackNote : ackBy).focus();
 }
@@ -1011,7 +1018,10 @@ function route() {
 window.addEventListener("hashchange", route);
 route();
 
-// The overview's count is shown in the navigation on every view.
-setInterval(() => {
+// The count of open alerts is shown in the navigation on every view.
+function refreshAlertCount() {
   api.tanks().then((d) => setAlertCount(((d && d.tanks) || []).reduce((n, t) => n + (t.open_alerts || []).length, 0)), () => {});
-}, 30000);
+}
+window.addEventListener("hashchange", refreshAlertCount);
+refreshAlertCount();
+setInterval(refreshAlertCount, 30000);
