@@ -75,11 +75,11 @@ async function request(method, path, body, { auth = false, timeoutMs = 15000 } =
     const message =
       (data && data.error && data.error.message) || `${method} ${path} answered ${res.status} ${res.statusText}`;
     if (res.status === 401) {
-      throw new ApiError(
-        401,
-        `Not allowed (401): ${message} Unlock again with the daemon's HTTP token.`,
-        path,
-      );
+      const sentence = message.replace(/[.\s]*$/, ".");
+      const hint = /no HTTP token is configured/.test(message)
+        ? ""
+        : " The token was forgotten: Unlock again with the daemon's HTTP token.";
+      throw new ApiError(401, `Refused (401): ${sentence}${hint}`, path);
     }
     throw new ApiError(res.status, message, path);
   }
