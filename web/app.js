@@ -103,6 +103,31 @@ async function withToken(action) {
 
 // ---------------------------------------------------------------- shared pieces
 
+const nameDialog = document.getElementById("name-dialog");
+const nameInput = document.getElementById("name-input");
+
+/** Asks who does a change (once; the name is remembered in this browser); "" when cancelled. */
+function askName(title) {
+  return new Promise((resolve) => {
+    document.getElementById("name-title").textContent = title;
+    nameInput.value = person();
+    nameDialog.returnValue = "";
+    nameDialog.addEventListener(
+      "close",
+      () => {
+        const name = nameInput.value.trim();
+        if (nameDialog.returnValue === "ok" && name) {
+          rememberPerson(name);
+          resolve(name);
+        } else resolve("");
+      },
+      { once: true },
+    );
+    nameDialog.showModal();
+    nameInput.focus();
+  });
+}
+
 function person() {
   try {
     return localStorage.getItem("halotank.name") || "";
@@ -658,12 +683,8 @@ function scheduleDetail(detail, reload) {
     } }, label);
   const onDone = open && state === "active"
     ? async (step) => {
-        let by = person();
-        if (!by) {
-          by = (prompt("Your name (recorded with the step):") || "").trim();
-          if (!by) return;
-          rememberPerson(by);
-        }
+        const by = person() || (await askName(`Mark step ${step} of schedule ${s.id} done`));
+        if (!by) return;
         const res = await withToken(() => api.stepDone(s.id, step, by));
         if (res) {
           say("ok", `Step ${step} of schedule ${s.id} marked done by ${by}.`);

@@ -72,7 +72,7 @@ export function age(seconds) {
   return `${d} d ${hrs - d * 24} h`;
 }
 
-/** Local date and time to the minute, with the UTC offset written out. */
+/** The browser's local date and time to the minute. */
 export function when(iso) {
   if (!iso) return "–";
   const d = new Date(iso);
