@@ -55,6 +55,7 @@ fn text_output_summarises_site_broker_storage_and_tanks() {
         "broker: mqtt.brannock.example:8883 (TLS)",
         "password from environment variable HALOTANK_MQTT_PASSWORD",
         "storage: /var/lib/halotank/brannock.sqlite3, keep 90 days",
+        "http: listens on 127.0.0.1:8480, token for changes from environment variable HALOTANK_HTTP_TOKEN",
         "parr-a \"Parr raceway A (fresh water)\"",
         "unit uS/cm, specific conductance at 25 °C, alpha 2 %/°C",
         "combined     brannock/probes/shrimp-n2/state [senml]",

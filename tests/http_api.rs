@@ -432,6 +432,24 @@ fn schedules_start_change_and_refuse_what_the_cli_refuses() {
     let tanks = f.get("/api/tanks").json();
     assert_eq!(tanks["tanks"][1]["schedule"]["schedule_id"], id);
 
+    // The history of the tank carries the planned setpoint line: SP 5 at the start up to SP 30.
+    let plan_end: DateTime<Utc> = v["schedule"]["plan"]["end"].as_str().unwrap().parse().unwrap();
+    let h = f.get(&format!(
+        "/api/tanks/{PARR}/history?from={}&to={}",
+        enc(f.now - Duration::hours(1)),
+        enc(plan_end + Duration::hours(1))
+    ));
+    assert_eq!(h.status, 200, "{}", h.body);
+    let h = h.json();
+    assert_eq!(h["points"], json!([]));
+    let line = h["setpoint"].as_array().expect("a setpoint line");
+    assert_eq!(line.first().unwrap()["practical_salinity"], 5.0);
+    assert!((line.last().unwrap()["practical_salinity"].as_f64().unwrap() - 30.0).abs() < 1e-9);
+    let sps: Vec<f64> = line
+        .iter()
+        .map(|p| p["practical_salinity"].as_f64().unwrap())
+        .collect();
+    assert!(sps.windows(2).all(|w| w[1] >= w[0]), "rising: {sps:?}");
     let list = f.get("/api/schedules").json();
     assert_eq!(list["schedules"].as_array().unwrap().len(), 1);
     assert_eq!(
@@ -523,6 +541,8 @@ fn the_page_and_assets_are_embedded_and_unknown_routes_answer_json() {
     assert_eq!(f.get("/assets/index.html").status, 200);
     f.get("/assets/missing.js").error(404);
     f.get("/api/nothing-here").error(404);
+    let huge = format!(r#"{{"by": "ines", "note": "{}"}}"#, "n".repeat(70 * 1024));
+    assert!(f.post("/api/plan", &huge, None).error(413).contains("KiB"));
     let m = f.post("/api/tanks", "{}", Some(TOKEN)).error(405);
     assert!(m.contains("method"), "{m}");
 }

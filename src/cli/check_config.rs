@@ -123,6 +123,22 @@ pub fn summary(config: &Config) -> String {
         st.flush_ms
     );
     let _ = writeln!(s, "publish under: {}", config.publish.topic_prefix);
+    let h = &config.http;
+    if h.enabled {
+        let _ = writeln!(
+            s,
+            "http: listens on {}{}, token for changes from {}",
+            h.bind,
+            if h.bind.ip().is_loopback() {
+                ""
+            } else {
+                " (beyond loopback: reads need no token)"
+            },
+            h.describe_token_source()
+        );
+    } else {
+        let _ = writeln!(s, "http: disabled");
+    }
     let i = &config.ingest;
     let _ = writeln!(
         s,

@@ -10,6 +10,9 @@
 //! [`ALERT_TICK`] the loop ticks the engine and applies acknowledgement requests the CLI left in the
 //! database (`alert_ack_requests`).
 //!
+//! HTTP: [`live_updates`] starts the server of [`crate::http`] and the loop keeps its live view current
+//! (tank states from the acker, alert events, the link, counters and writer health every state tick).
+//!
 //! A QoS 1 message is acked only after the transaction holding its rows has committed; rejected and
 //! ignored messages travel through the writer too, so acks leave in the order messages arrived.
 pub mod acker;

@@ -6,7 +6,7 @@ use std::collections::HashMap;
 use std::time::Duration;
 
 use axum::body::Bytes;
-use axum::extract::rejection::{PathRejection, QueryRejection};
+use axum::extract::rejection::{BytesRejection, PathRejection, QueryRejection};
 use axum::extract::{Path, Query, State};
 use axum::http::StatusCode;
 use axum::Json;
@@ -15,6 +15,7 @@ use serde::Deserialize;
 use serde_json::{json, Value};
 
 use super::auth::Authorized;
+use super::body;
 use super::error::{ApiError, ApiResult};
 use super::params::{path_id, stamp, Params};
 use super::state::AppState;
@@ -78,23 +79,15 @@ struct AckBody {
     note: Option<String>,
 }
 
-/// Parses a JSON body, every failure a 400 naming what is wrong.
-pub fn json_body<T: serde::de::DeserializeOwned>(body: &Bytes) -> ApiResult<T> {
-    if body.is_empty() {
-        return Err(ApiError::bad_request("the request needs a JSON body"));
-    }
-    serde_json::from_slice(body).map_err(|e| ApiError::bad_request(format!("bad JSON body: {e}")))
-}
-
 /// `POST /api/alerts/{id}/ack` with `{"by": "name", "note": "optional"}`.
 pub async fn acknowledge(
     _auth: Authorized,
     State(state): State<AppState>,
     path: Result<Path<String>, PathRejection>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<(StatusCode, Json<Value>)> {
     let id = path_id(path, "alert")? as u64;
-    let body: AckBody = json_body(&body)?;
+    let body: AckBody = body::json(&body::bytes(body)?)?;
     let by = body.by.trim().to_string();
     if by.is_empty() || by.chars().count() > MAX_BY_CHARS {
         return Err(ApiError::bad_request(format!(

@@ -4,7 +4,9 @@
 //! - [`live`]: the in-memory view the daemon keeps up to date (tank states, alerts, schedules, link,
 //!   counters, writer statistics); `/api/tanks` and `/metrics` read only this.
 //! - [`state`]: `AppState`, shared by the handlers; [`db`]: SQLite off the async workers.
-//! - [`router`]: the routes; [`auth`]: the bearer token of state-changing routes; [`error`]: JSON errors.
+//! - [`router`]: the routes; [`auth`]: the bearer token of state-changing routes; [`error`]: JSON errors;
+//!   [`params`] and [`body`]: checked query parameters, path ids and JSON bodies (400 with a reason).
+//! - [`histogram`]: the fixed-bucket histograms of `/metrics`.
 //! - [`tanks`], [`history`], [`alerts`], [`schedules`], [`plan`], [`metrics`], [`health`], [`assets`]:
 //!   one file per group of routes.
 //!
@@ -13,6 +15,7 @@
 pub mod alerts;
 pub mod assets;
 pub mod auth;
+pub mod body;
 pub mod db;
 pub mod error;
 pub mod health;

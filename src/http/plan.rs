@@ -3,13 +3,14 @@
 //! current salinity and temperature fill what the form leaves out. Also the form's mapping onto the
 //! planner's shared [`PlanInputs`], used by `POST /api/schedules`.
 use axum::body::Bytes;
+use axum::extract::rejection::BytesRejection;
 use axum::extract::State;
 use axum::Json;
 use chrono::{DateTime, SubsecRound, Utc};
 use serde::Deserialize;
 use serde_json::Value;
 
-use super::alerts::json_body;
+use super::body;
 use super::error::{ApiError, ApiResult};
 use super::params::parse_time;
 use super::state::AppState;
@@ -222,8 +223,11 @@ pub async fn request_for_form(
 }
 
 /// `POST /api/plan`.
-pub async fn plan(State(state): State<AppState>, body: Bytes) -> ApiResult<Json<Value>> {
-    let form: PlanForm = json_body(&body)?;
+pub async fn plan(
+    State(state): State<AppState>,
+    body: Result<Bytes, BytesRejection>,
+) -> ApiResult<Json<Value>> {
+    let form: PlanForm = body::json(&body::bytes(body)?)?;
     let now = Utc::now().trunc_subsecs(0);
     let json = |v: Result<Value, serde_json::Error>| {
         v.map_err(|e| ApiError::internal(format!("cannot write JSON: {e}")))

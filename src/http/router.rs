@@ -1,4 +1,5 @@
-//! Every route of the server, the JSON 404/405 answers, the request counter and the body size cap.
+//! Every route of the server, the JSON 404/405 answers, the request counter (and debug log line) and the
+//! body size cap.
 use axum::extract::{DefaultBodyLimit, Request, State};
 use axum::middleware::{self, Next};
 use axum::response::{IntoResponse, Response};
@@ -52,7 +53,10 @@ async fn method_not_allowed() -> ApiError {
 }
 
 async fn count_responses(State(state): State<AppState>, request: Request, next: Next) -> Response {
+    let (method, path) = (request.method().clone(), request.uri().path().to_string());
     let response = next.run(request).await.into_response();
-    state.live().count_response(response.status().as_u16());
+    let status = response.status().as_u16();
+    state.live().count_response(status);
+    tracing::debug!(%method, %path, status, "HTTP request");
     response
 }

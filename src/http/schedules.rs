@@ -4,7 +4,7 @@
 use std::collections::HashMap;
 
 use axum::body::Bytes;
-use axum::extract::rejection::{PathRejection, QueryRejection};
+use axum::extract::rejection::{BytesRejection, PathRejection, QueryRejection};
 use axum::extract::{Path, Query, State};
 use axum::http::StatusCode;
 use axum::Json;
@@ -12,8 +12,9 @@ use chrono::{SubsecRound, Utc};
 use serde::Deserialize;
 use serde_json::{json, Value};
 
-use super::alerts::{json_body, MAX_BY_CHARS};
+use super::alerts::MAX_BY_CHARS;
 use super::auth::Authorized;
+use super::body;
 use super::error::{ApiError, ApiResult};
 use super::params::{path_id, Params};
 use super::plan::{request_for_form, PlanForm};
@@ -85,9 +86,9 @@ fn check_by(by: Option<&str>) -> ApiResult<String> {
 pub async fn start(
     _auth: Authorized,
     State(state): State<AppState>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<(StatusCode, Json<Value>)> {
-    let mut body: StartBody = json_body(&body)?;
+    let mut body: StartBody = body::json(&body::bytes(body)?)?;
     let by = check_by(body.by.as_deref())?;
     if state.tank(&body.tank).is_none() {
         return Err(unknown_tank(&body.tank));
@@ -139,11 +140,17 @@ enum Action {
     Abort,
 }
 
-async fn change(state: AppState, id: i64, body: Bytes, action: Action) -> ApiResult<Json<Value>> {
+async fn change(
+    state: AppState,
+    id: i64,
+    body: Result<Bytes, BytesRejection>,
+    action: Action,
+) -> ApiResult<Json<Value>> {
+    let body = body::bytes(body)?;
     let parsed: ByBody = if body.is_empty() {
         ByBody::default()
     } else {
-        json_body(&body)?
+        body::json(&body)?
     };
     let by = check_by(parsed.by.as_deref())?;
     let now = Utc::now().trunc_subsecs(3);
@@ -168,7 +175,7 @@ pub async fn pause(
     _auth: Authorized,
     State(state): State<AppState>,
     path: Result<Path<String>, PathRejection>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<Json<Value>> {
     let id = path_id(path, "schedule")?;
     change(state, id, body, Action::Pause).await
@@ -179,7 +186,7 @@ pub async fn resume(
     _auth: Authorized,
     State(state): State<AppState>,
     path: Result<Path<String>, PathRejection>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<Json<Value>> {
     let id = path_id(path, "schedule")?;
     change(state, id, body, Action::Resume).await
@@ -190,7 +197,7 @@ pub async fn abort(
     _auth: Authorized,
     State(state): State<AppState>,
     path: Result<Path<String>, PathRejection>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<Json<Value>> {
     let id = path_id(path, "schedule")?;
     change(state, id, body, Action::Abort).await
@@ -201,10 +208,10 @@ pub async fn step_done(
     _auth: Authorized,
     State(state): State<AppState>,
     path: Result<Path<String>, PathRejection>,
-    body: Bytes,
+    body: Result<Bytes, BytesRejection>,
 ) -> ApiResult<Json<Value>> {
     let id = path_id(path, "schedule")?;
-    let body: StepDoneBody = json_body(&body)?;
+    let body: StepDoneBody = body::json(&body::bytes(body)?)?;
     let by = check_by(Some(&body.by))?;
     if body.step == 0 {
         return Err(ApiError::bad_request("`step` counts from 1"));
