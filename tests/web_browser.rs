@@ -303,20 +303,27 @@ where
 }
 
 /// Scrolls the element to the middle of the window (as a person would, clear of the fixed caution
-/// strip at the bottom) and clicks it.
+/// strip at the bottom) and clicks it. The page redraws its lists every few seconds, so an element found
+/// just before a redraw may be gone when clicked: then it is found again, until the deadline.
 async fn click(c: &Client, css: &str) {
-    let e = c
-        .find(Locator::Css(css))
-        .await
-        .unwrap_or_else(|e| panic!("no element {css}: {e}"));
-    let arg = serde_json::to_value(&e).unwrap();
-    c.execute(
-        "arguments[0].scrollIntoView({block: 'center'}); return true",
-        vec![arg],
-    )
-    .await
-    .unwrap();
-    e.click().await.unwrap_or_else(|e| panic!("click {css}: {e}"));
+    let deadline = tokio::time::Instant::now() + DEADLINE;
+    loop {
+        let attempt = async {
+            let e = c.find(Locator::Css(css)).await?;
+            let arg = serde_json::to_value(&e).map_err(fantoccini::error::CmdError::Json)?;
+            c.execute(
+                "arguments[0].scrollIntoView({block: 'center'}); return true",
+                vec![arg],
+            )
+            .await?;
+            e.click().await
+        };
+        match attempt.await {
+            Ok(()) => return,
+            Err(e) if tokio::time::Instant::now() >= deadline => panic!("click {css}: {e}"),
+            Err(_) => tokio::time::sleep(Duration::from_millis(200)).await,
+        }
+    }
 }
 
 async fn type_into(c: &Client, css: &str, text: &str) {
