@@ -15,6 +15,7 @@ mod mqtt_support;
 use std::net::{SocketAddr, TcpListener};
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
+use std::sync::{Arc, Mutex};
 use std::time::Duration;
 
 use chrono::{DateTime, SecondsFormat, SubsecRound, TimeDelta, Utc};
@@ -118,6 +119,9 @@ fn artifacts_dir() -> PathBuf {
 struct Driver {
     child: Child,
     port: u16,
+    /// Every session opened, so they can be closed even when the scenario fails half-way (a browser
+    /// whose session is never closed outlives chromedriver).
+    sessions: Mutex<Vec<Client>>,
 }
 
 impl Driver {
@@ -131,7 +135,11 @@ impl Driver {
             .stderr(log)
             .spawn()
             .expect("start chromedriver");
-        let driver = Driver { child, port };
+        let driver = Driver {
+            child,
+            port,
+            sessions: Mutex::new(Vec::new()),
+        };
         let deadline = tokio::time::Instant::now() + DEADLINE;
         while tokio::net::TcpStream::connect(("127.0.0.1", port)).await.is_err() {
             assert!(
@@ -161,11 +169,21 @@ impl Driver {
             "goog:chromeOptions".to_string(),
             serde_json::json!({ "binary": chromium, "args": args }),
         );
-        ClientBuilder::new(hyper_util::client::legacy::connect::HttpConnector::new())
+        let client = ClientBuilder::new(hyper_util::client::legacy::connect::HttpConnector::new())
             .capabilities(caps)
             .connect(&format!("http://127.0.0.1:{}", self.port))
             .await
-            .expect("open a Chromium session through chromedriver")
+            .expect("open a Chromium session through chromedriver");
+        self.sessions.lock().unwrap().push(client.clone());
+        client
+    }
+
+    /// Closes every session still open (ending its browser); closed ones just answer an error.
+    async fn close_all(&self) {
+        let sessions: Vec<Client> = self.sessions.lock().unwrap().drain(..).collect();
+        for client in sessions {
+            let _ = client.close().await;
+        }
     }
 }
 
@@ -375,6 +393,28 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     let Some((chromium, chromedriver)) = browser_programs() else {
         return;
     };
+    let logs = tempfile::tempdir().unwrap();
+    let driver = Arc::new(Driver::start(&chromedriver, &logs.path().join("chromedriver.log")).await);
+    let outcome = tokio::spawn(scenario(driver.clone(), chromium)).await;
+    driver.close_all().await;
+    drop(driver);
+    if let Err(e) = outcome {
+        if let Ok(log) = std::fs::read_to_string(logs.path().join("chromedriver.log")) {
+            let tail: Vec<&str> = log.lines().rev().take(20).collect();
+            eprintln!(
+                "chromedriver log (last lines, newest first):\n{}",
+                tail.join("\n")
+            );
+        }
+        match e.try_into_panic() {
+            Ok(panic) => std::panic::resume_unwind(panic),
+            Err(e) => panic!("browser scenario did not finish: {e}"),
+        }
+    }
+}
+
+/// The scenario of the module doc, on sessions of `driver`.
+async fn scenario(driver: Arc<Driver>, chromium: PathBuf) {
     mqtt_support::init_logging();
     let library = SpeciesLibrary::embedded().unwrap();
     let oyster = library.get(ALERT_SPECIES).unwrap();
@@ -447,7 +487,6 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     })
     .await;
 
-    let driver = Driver::start(&chromedriver, &dir.path().join("chromedriver.log")).await;
     let page = driver.session(&chromium, false).await;
     assert!(
         !prefers_dark(&page).await,
@@ -766,7 +805,6 @@ async fn page_shows_published_values_and_acknowledges_an_alert() {
     }
     screenshot(&dark, "tank-dark.png").await;
     dark.close().await.unwrap();
-    drop(driver);
 
     stop.send(true).unwrap();
     tokio::time::timeout(DEADLINE, daemon)
