@@ -618,8 +618,13 @@ async fn scenario(driver: Arc<Driver>, chromium: PathBuf) {
     type_into(&page, "[data-testid=\"ack-note\"]", ACK_NOTE).await;
     click(&page, "[data-testid=\"ack-submit\"]").await;
     wait_dialog(&page, "unlock-dialog").await;
-    type_into(&page, "[data-testid=\"token-input\"]", TOKEN).await;
-    click(&page, "[data-testid=\"unlock-submit\"]").await;
+    // Enter in the field confirms (WebDriver key U+E007 is Enter).
+    type_into(
+        &page,
+        "[data-testid=\"token-input\"]",
+        &format!("{TOKEN}\u{e007}"),
+    )
+    .await;
     let acked = wait_db("the acknowledgement in the database", || {
         alerts(&db)
             .into_iter()

@@ -31,6 +31,11 @@ function explain(err) {
   return String((err && err.message) || err);
 }
 
+// Cancel buttons are plain buttons, so Enter in a field submits the dialog's confirming button.
+for (const b of document.querySelectorAll("dialog [data-close]")) {
+  b.addEventListener("click", () => b.closest("dialog").close("cancel"));
+}
+
 // ---------------------------------------------------------------- unlock
 
 const unlockButton = document.getElementById("unlock");
