@@ -22,11 +22,43 @@ pub struct Asset {
 }
 
 /// Every embedded file.
-pub const ASSETS: &[Asset] = &[Asset {
-    path: "index.html",
-    content_type: "text/html; charset=utf-8",
-    bytes: include_bytes!("../../web/index.html"),
-}];
+pub const ASSETS: &[Asset] = &[
+    Asset {
+        path: "index.html",
+        content_type: "text/html; charset=utf-8",
+        bytes: include_bytes!("../../web/index.html"),
+    },
+    Asset {
+        path: "app.css",
+        content_type: "text/css; charset=utf-8",
+        bytes: include_bytes!("../../web/app.css"),
+    },
+    Asset {
+        path: "app.js",
+        content_type: "text/javascript; charset=utf-8",
+        bytes: include_bytes!("../../web/app.js"),
+    },
+    Asset {
+        path: "api.js",
+        content_type: "text/javascript; charset=utf-8",
+        bytes: include_bytes!("../../web/api.js"),
+    },
+    Asset {
+        path: "chart.js",
+        content_type: "text/javascript; charset=utf-8",
+        bytes: include_bytes!("../../web/chart.js"),
+    },
+    Asset {
+        path: "dom.js",
+        content_type: "text/javascript; charset=utf-8",
+        bytes: include_bytes!("../../web/dom.js"),
+    },
+    Asset {
+        path: "icon.svg",
+        content_type: "image/svg+xml",
+        bytes: include_bytes!("../../web/icon.svg"),
+    },
+];
 
 /// The asset with this name.
 pub fn find(path: &str) -> Option<&'static Asset> {
