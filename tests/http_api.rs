@@ -548,6 +548,22 @@ fn the_page_and_assets_are_embedded_and_unknown_routes_answer_json() {
 }
 
 #[test]
+fn requests_naming_another_host_are_refused_against_dns_rebinding() {
+    let f = Fixture::start(None);
+    let r = get(f.addr, "/api/tanks", &[("Host", "evil.example:8480")]);
+    let message = r.error(421);
+    assert!(
+        message.contains("allowed_hosts") && message.contains("evil.example"),
+        "{message}"
+    );
+    assert_eq!(
+        get(f.addr, "/api/tanks", &[("Host", "localhost:8480")]).status,
+        200
+    );
+    assert_eq!(get(f.addr, "/", &[("Host", "[::1]:8480")]).status, 200);
+}
+
+#[test]
 fn metrics_follow_the_exposition_format_and_count_requests() {
     let f = Fixture::start(None);
     let mut counters = halotank::daemon::counters::Counters {

@@ -20,6 +20,7 @@ pub(crate) struct RawHttp {
     token_env: Option<String>,
     token_file: Option<String>,
     stale_after_s: Option<u64>,
+    allowed_hosts: Option<Vec<String>>,
 }
 
 /// The HTTP server.
@@ -35,6 +36,9 @@ pub struct HttpConfig {
     pub token_file: Option<PathBuf>,
     /// A reading older than this is stale; `None`: three times the tank's expected interval.
     pub stale_after_s: Option<u64>,
+    /// Host names (besides IP addresses and `localhost`) the server answers to, lower case: a request
+    /// naming another host is refused, so a web page cannot reach the server by DNS rebinding.
+    pub allowed_hosts: Vec<String>,
 }
 
 impl Default for HttpConfig {
@@ -45,6 +49,7 @@ impl Default for HttpConfig {
             token_env: Some(defaults::HTTP_TOKEN_ENV.to_string()),
             token_file: None,
             stale_after_s: None,
+            allowed_hosts: Vec::new(),
         }
     }
 }
@@ -143,12 +148,28 @@ impl RawHttp {
                 "must be at least 1 second (leave it out for 3x each tank's expected interval)",
             ));
         }
+        let mut allowed_hosts = Vec::new();
+        for (i, host) in self.allowed_hosts.unwrap_or_default().iter().enumerate() {
+            let host = host.trim().to_ascii_lowercase();
+            let valid = !host.is_empty()
+                && host
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '.');
+            if !valid {
+                return Err(Invalid::new(
+                    path.key("allowed_hosts").index(i),
+                    "must be a host name without port or scheme, like `tanks.hatchery.lan`",
+                ));
+            }
+            allowed_hosts.push(host);
+        }
         Ok(HttpConfig {
             enabled: self.enabled.unwrap_or(true),
             bind,
             token_env,
             token_file,
             stale_after_s: self.stale_after_s,
+            allowed_hosts,
         })
     }
 }

@@ -759,6 +759,11 @@ fn http_defaults_to_loopback_with_the_token_from_the_environment() {
         Some(Path::new("/etc/halotank/secrets/http-token"))
     );
     assert_eq!(config.http.stale_after_s, Some(300));
+    assert!(config.http.allowed_hosts.is_empty());
+    let config = ok(&format!(
+        "{BASE}[http]\nallowed_hosts = [\"Tanks.Kelpie.LAN\"]\n{TANK_A}"
+    ));
+    assert_eq!(config.http.allowed_hosts, vec!["tanks.kelpie.lan".to_string()]);
 }
 
 #[test]
@@ -769,6 +774,11 @@ fn bad_http_settings_name_line_and_key() {
         ("token_env = \" \"", "http.token_env", "environment variable"),
         ("token_file = \"\"", "http.token_file", "file"),
         ("stale_after_s = 0", "http.stale_after_s", "at least 1"),
+        (
+            "allowed_hosts = [\"tanks.lan:8480\"]",
+            "http.allowed_hosts[0]",
+            "without port",
+        ),
         ("port = 8480", "http", "port"),
     ] {
         let text = format!("{BASE}{TANK_A}\n[http]\n{setting}\n");

@@ -21,6 +21,7 @@ pub mod error;
 pub mod health;
 pub mod histogram;
 pub mod history;
+pub mod host;
 pub mod live;
 pub mod metrics;
 pub mod params;

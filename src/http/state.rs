@@ -82,6 +82,7 @@ struct Inner {
     tanks: Vec<TankInfo>,
     index: HashMap<String, usize>,
     library: SpeciesLibrary,
+    allowed_hosts: Vec<String>,
 }
 
 /// Shared by every handler; cheap to clone.
@@ -132,8 +133,14 @@ impl AppState {
                 tanks,
                 index,
                 library,
+                allowed_hosts: config.http.allowed_hosts.clone(),
             }),
         }
+    }
+
+    /// Host names besides IP addresses and `localhost` that requests may name (`[http] allowed_hosts`).
+    pub fn allowed_hosts(&self) -> &[String] {
+        &self.inner.allowed_hosts
     }
 
     pub fn live(&self) -> &LiveView {
