@@ -64,6 +64,8 @@ fn main() {
     std::fs::create_dir_all(&data_dir).unwrap();
     let db = data_dir.join(format!("http-{TANKS}-tanks-{days}-days.sqlite3"));
     let end = build_history(&db, days);
+    // Earlier runs left their load readings after the history: this run's start after the newest.
+    let load_base = newest_reading(&db).max(end);
 
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
@@ -83,13 +85,13 @@ fn main() {
 
         let running = Arc::new(AtomicBool::new(true));
         let sent = Arc::new(AtomicU64::new(0));
-        let publisher = tokio::spawn(publish_load(broker.addr(), running.clone(), sent.clone(), end));
+        let publisher = tokio::spawn(publish_load(broker.addr(), running.clone(), sent.clone(), load_base));
         // Let every tank receive a live reading before measuring.
         tokio::time::sleep(Duration::from_secs(3)).await;
 
         let started = Instant::now();
         let sent_before = sent.load(Ordering::Relaxed);
-        let overview = {
+        let (overview, overview_bytes, cards_live) = {
             let base = base.clone();
             tokio::task::spawn_blocking(move || measure_overview(&base))
                 .await
@@ -105,16 +107,22 @@ fn main() {
         let ingest_rate = (sent.load(Ordering::Relaxed) - sent_before) as f64 / elapsed;
         running.store(false, Ordering::Relaxed);
         let _ = publisher.await;
+        let sent_total = sent.load(Ordering::Relaxed);
         stop.send(true).unwrap();
         let _ = daemon.await;
         broker.stop().await;
+        let committed = committed_after(&db, load_base);
 
         println!();
         println!("halotank HTTP benchmark: {TANKS} tanks, {days} days of one-minute history, ingest during the run");
         println!("{:<34} {:>10} {:>10} {:>10} {:>10}", "request", "p50 ms", "p99 ms", "max ms", "target");
         print_row("GET /api/tanks (overview)", &overview, "p99<=20");
         print_row("GET history, 7 days, 1000 pts", &chart, "p99<=100");
+        println!(
+            "overview answer: {overview_bytes} bytes, {cards_live} of {TANKS} cards with a live reading"
+        );
         println!("ingest while measuring: {ingest_rate:.0} readings/s published (target {INGEST_PER_S}/s)");
+        println!("load readings committed by the daemon: {committed} of {sent_total} published (QoS 0)");
         println!("database: {}", db.display());
     });
 }
@@ -207,6 +215,26 @@ fn reading_pools() -> Vec<Vec<ReadingRow>> {
                 .collect()
         })
         .collect()
+}
+
+/// Time of the newest stored reading.
+fn newest_reading(db: &Path) -> DateTime<Utc> {
+    let conn = rusqlite::Connection::open_with_flags(db, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).unwrap();
+    let ms: i64 = conn
+        .query_row("SELECT COALESCE(MAX(time_ms), 0) FROM readings", [], |r| r.get(0))
+        .unwrap();
+    DateTime::from_timestamp_millis(ms).unwrap()
+}
+
+/// Readings the load added (stamped after `after`).
+fn committed_after(db: &Path, end: DateTime<Utc>) -> u64 {
+    let conn = rusqlite::Connection::open_with_flags(db, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).unwrap();
+    conn.query_row(
+        "SELECT COUNT(*) FROM readings WHERE time_ms > ?1",
+        [end.timestamp_millis()],
+        |r| r.get::<_, i64>(0),
+    )
+    .map_or(0, |n| n as u64)
 }
 
 fn tank_id(i: usize) -> String {
@@ -325,9 +353,20 @@ fn agent() -> ureq::Agent {
         .into()
 }
 
-fn measure_overview(base: &str) -> Latencies {
+fn measure_overview(base: &str) -> (Latencies, usize, usize) {
     let agent = agent();
     let url = format!("{base}/api/tanks");
+    let first = agent
+        .get(&url)
+        .call()
+        .unwrap()
+        .body_mut()
+        .read_to_string()
+        .unwrap();
+    let json: serde_json::Value = serde_json::from_str(&first).unwrap();
+    let live = json["tanks"]
+        .as_array()
+        .map_or(0, |t| t.iter().filter(|c| !c["latest"].is_null()).count());
     let mut ms = Vec::with_capacity(OVERVIEW_REQUESTS);
     for _ in 0..OVERVIEW_REQUESTS {
         let t = Instant::now();
@@ -345,7 +384,7 @@ fn measure_overview(base: &str) -> Latencies {
             body.len()
         );
     }
-    Latencies { ms }
+    (Latencies { ms }, first.len(), live)
 }
 
 fn measure_chart(base: &str, end: DateTime<Utc>) -> Latencies {

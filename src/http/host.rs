@@ -35,7 +35,7 @@ pub fn host_allowed(header_value: Option<&str>, allowed: &[String]) -> bool {
     host == "localhost"
         || host.ends_with(".localhost")
         || host.parse::<std::net::IpAddr>().is_ok()
-        || allowed.iter().any(|a| *a == host)
+        || allowed.contains(&host)
 }
 
 /// Middleware: refuses a request for another host with 421 and a JSON message naming the setting.
