@@ -54,6 +54,13 @@ const TEMPERATURE_C: f64 = 12.0;
 const POOL: usize = 64;
 
 fn main() {
+    // The daemon's own log: warnings by default, `RUST_LOG=info` (or finer) for more.
+    let filter = tracing_subscriber::EnvFilter::try_from_default_env()
+        .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("warn"));
+    tracing_subscriber::fmt()
+        .with_env_filter(filter)
+        .with_writer(std::io::stderr)
+        .init();
     let days: i64 = std::env::var("HALOTANK_BENCH_DAYS")
         .ok()
         .and_then(|s| s.parse().ok())
@@ -134,7 +141,13 @@ fn build_history(db: &Path, days: i64) -> DateTime<Utc> {
     let stamp = db.with_extension("end");
     if let (Ok(text), true) = (std::fs::read_to_string(&stamp), db.exists()) {
         if let Ok(end) = DateTime::parse_from_rfc3339(text.trim()) {
-            println!("reusing {} ({expected} readings)", db.display());
+            println!(
+                "reusing {} ({expected} readings); applying new migrations",
+                db.display()
+            );
+            let t0 = Instant::now();
+            drop(open_for_writing(db, Duration::from_secs(10)).unwrap());
+            println!("schema up to date in {:.0} s", t0.elapsed().as_secs_f64());
             return end.with_timezone(&Utc);
         }
     }

@@ -151,3 +151,27 @@ fn readers_need_an_existing_current_database() {
     drop(open_for_writing(&other, TIMEOUT).unwrap());
     assert!(open_for_reading(&other, TIMEOUT).is_ok());
 }
+
+/// The chart queries read the covering index only (one contiguous stretch per tank), never the table,
+/// whose rows lie interleaved in arrival order.
+#[test]
+fn chart_queries_use_the_covering_index() {
+    use halotank::storage::history_series::{BUCKET_QUERY, COUNT_QUERY, RAW_QUERY};
+    let db = temp_db();
+    let conn = open_for_writing(&db.path, std::time::Duration::from_secs(1)).unwrap();
+    for query in [COUNT_QUERY, BUCKET_QUERY, RAW_QUERY] {
+        let mut stmt = conn.prepare(&format!("EXPLAIN QUERY PLAN {query}")).unwrap();
+        let all: [&dyn rusqlite::ToSql; 4] = [&"smolt-b2", &0i64, &1i64, &60_000i64];
+        let params = &all[..stmt.parameter_count()];
+        let plan: Vec<String> = stmt
+            .query_map(params, |r| r.get::<_, String>(3))
+            .unwrap()
+            .map(Result::unwrap)
+            .collect();
+        assert!(
+            plan.iter()
+                .any(|line| line.contains("USING COVERING INDEX readings_chart")),
+            "{query}: {plan:?}"
+        );
+    }
+}

@@ -9,6 +9,22 @@ use rusqlite::{params, Connection};
 use super::codec::{ms_to_time, time_to_ms, HOUR_MS};
 use super::error::StorageError;
 
+/// Readings of a tank in a range (`?1` tank, `?2`..`?3` ms). Like the two below, it reads only the
+/// `readings_chart` covering index (a test checks the query plan).
+pub const COUNT_QUERY: &str =
+    "SELECT COUNT(*) FROM readings WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3";
+
+/// Bucket sums of a tank's readings (`?4` the bucket width, ms).
+pub const BUCKET_QUERY: &str =
+    "SELECT (time_ms - ?2) / ?4 AS b, COUNT(*), SUM(time_ms), SUM(practical_salinity), \
+     MIN(practical_salinity), MAX(practical_salinity), SUM(osmolality_mosm_kg), SUM(temperature_c) \
+     FROM readings WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3 GROUP BY b ORDER BY b";
+
+/// A tank's readings one by one.
+pub const RAW_QUERY: &str =
+    "SELECT time_ms, practical_salinity, osmolality_mosm_kg, temperature_c FROM readings \
+     WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3 ORDER BY time_ms, source_topic";
+
 /// One point of the series: a reading, or the mean of a bucket.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SeriesPoint {
@@ -81,7 +97,7 @@ pub fn history_series(
     let (from_ms, to_ms) = (time_to_ms(from), time_to_ms(to));
     let max_points = max_points.max(1);
     let raw_count: i64 = conn
-        .prepare_cached("SELECT COUNT(*) FROM readings WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3")
+        .prepare_cached(COUNT_QUERY)
         .and_then(|mut s| s.query_row(params![tank_id, from_ms, to_ms], |r| r.get(0)))
         .map_err(StorageError::sqlite(what))?;
     let hourly = hourly_buckets(conn, tank_id, from_ms, to_ms)?;
@@ -93,11 +109,7 @@ pub fn history_series(
     let last = (span - 1) / width;
     let mut buckets: std::collections::BTreeMap<i64, Bucket> = std::collections::BTreeMap::new();
     let mut stmt = conn
-        .prepare_cached(
-            "SELECT (time_ms - ?2) / ?4 AS b, COUNT(*), SUM(time_ms), SUM(practical_salinity), \
-                    MIN(practical_salinity), MAX(practical_salinity), SUM(osmolality_mosm_kg), SUM(temperature_c) \
-             FROM readings WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3 GROUP BY b ORDER BY b",
-        )
+        .prepare_cached(BUCKET_QUERY)
         .map_err(StorageError::sqlite(what))?;
     let rows = stmt
         .query_map(params![tank_id, from_ms, to_ms, width], |r| {
@@ -179,10 +191,7 @@ fn hourly_buckets(
 fn raw_points(conn: &Connection, tank_id: &str, from_ms: i64, to_ms: i64) -> Result<Series, StorageError> {
     let what = "query reading history";
     let mut stmt = conn
-        .prepare_cached(
-            "SELECT time_ms, practical_salinity, osmolality_mosm_kg, temperature_c FROM readings \
-             WHERE tank_id = ?1 AND time_ms >= ?2 AND time_ms < ?3 ORDER BY time_ms, source_topic",
-        )
+        .prepare_cached(RAW_QUERY)
         .map_err(StorageError::sqlite(what))?;
     let rows = stmt
         .query_map(params![tank_id, from_ms, to_ms], |r| {
