@@ -4,7 +4,7 @@ use chrono::{DateTime, Duration, TimeZone, Utc};
 use super::*;
 use crate::planner::{make_plan, Method, PlanRequest, Ramp, RampShape, RateLimits};
 
-fn t0() -> DateTime<Utc> {
+pub(super) fn t0() -> DateTime<Utc> {
     Utc.with_ymd_and_hms(2026, 3, 2, 8, 0, 0).unwrap()
 }
 
@@ -13,7 +13,7 @@ fn h(hours: i64) -> Duration {
 }
 
 /// 1,000 L from SP 30 to 20 at 2 SP/h, hourly: five steps of 2 SP (30 -> 28 -> ... -> 20).
-fn request(method: Method) -> PlanRequest {
+pub(super) fn request(method: Method) -> PlanRequest {
     PlanRequest {
         tank_volume_l: 1000.0,
         from_practical_salinity: 30.0,

@@ -2,43 +2,22 @@
 //! exchange with fresh water, 2 SP per hourly step; the fictional demo tank `smolt-b2`).
 use std::collections::HashMap;
 
-use chrono::{DateTime, Duration, TimeZone, Utc};
+use chrono::{DateTime, Duration, Utc};
 
+use super::tests::{request, t0};
 use super::*;
 use crate::alerts::ScheduleSignal;
-use crate::planner::{make_plan, Method, PlanRequest, Ramp, RampShape, RateLimits};
-
-fn t0() -> DateTime<Utc> {
-    Utc.with_ymd_and_hms(2026, 3, 2, 8, 0, 0).unwrap()
-}
+use crate::planner::{make_plan, Method};
 
 fn minutes(m: i64) -> DateTime<Utc> {
     t0() + Duration::minutes(m)
 }
 
 fn exchange() -> Schedule {
-    let request = PlanRequest {
-        tank_volume_l: 1000.0,
-        from_practical_salinity: 30.0,
-        to_practical_salinity: 20.0,
-        temperature_c: 15.0,
-        start: t0(),
-        interval_h: 1.0,
-        method: Method::Exchange {
-            source_practical_salinity: 0.2,
-        },
-        ramp: Ramp {
-            shape: RampShape::LinearSalinity,
-            rate: None,
-        },
-        holds: vec![],
-        rate_limits: RateLimits {
-            max_rate_sp_per_h: Some(2.0),
-            ..RateLimits::default()
-        },
-        salinity_limits: None,
-    };
-    let plan = make_plan(&request).unwrap();
+    let plan = make_plan(&request(Method::Exchange {
+        source_practical_salinity: 0.2,
+    }))
+    .unwrap();
     Schedule::new(7, "smolt-b2".into(), t0(), SchedulePlan::from(&plan))
 }
 
@@ -252,32 +231,15 @@ fn an_ended_schedule_clears_its_alerts_and_publishes_its_final_state() {
 #[test]
 fn a_flow_setpoint_is_republished_only_when_it_has_moved() {
     let mut tracker = tracker();
-    let mut request_plan = exchange();
-    // Same test tank and ramp by flow-through with fresh water (pump limit ample).
-    let request = PlanRequest {
-        tank_volume_l: 1000.0,
-        from_practical_salinity: 30.0,
-        to_practical_salinity: 20.0,
-        temperature_c: 15.0,
-        start: t0(),
-        interval_h: 1.0,
-        method: Method::FlowThrough {
+    // The same tank and ramp by flow-through with fresh water (pump limit ample).
+    let mut s = exchange();
+    s.plan = SchedulePlan::from(
+        &make_plan(&request(Method::FlowThrough {
             source_practical_salinity: 0.2,
             max_flow_l_min: Some(100.0),
-        },
-        ramp: Ramp {
-            shape: RampShape::LinearSalinity,
-            rate: None,
-        },
-        holds: vec![],
-        rate_limits: RateLimits {
-            max_rate_sp_per_h: Some(2.0),
-            ..RateLimits::default()
-        },
-        salinity_limits: None,
-    };
-    request_plan.plan = SchedulePlan::from(&make_plan(&request).unwrap());
-    let mut s = request_plan;
+        }))
+        .unwrap(),
+    );
     s.mark_step_done(None, minutes(0), "ines").unwrap();
     let first = tracker.sync(vec![s], minutes(0));
     let first_sp = setpoints(&first.actions)[0].setpoint_practical_salinity;
