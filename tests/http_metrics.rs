@@ -162,5 +162,37 @@ async fn counters_move_when_readings_arrive_through_the_daemon() {
         gone.is_err(),
         "the HTTP port still accepts after the daemon stopped"
     );
+
+    // Restarted with no new reading: the card and the age metric show the last stored reading.
+    let (stop, stop_rx) = watch::channel(false);
+    let (addr_tx, addr_rx) = oneshot::channel();
+    let hooks = DaemonHooks {
+        http_addr: Some(addr_tx),
+    };
+    let daemon = tokio::spawn(run_with(site.load_config(), stop_rx, hooks));
+    let addr = tokio::time::timeout(DEADLINE, addr_rx).await.unwrap().unwrap();
+    let tanks = tokio::task::spawn_blocking(move || get(addr, "/api/tanks", &[]))
+        .await
+        .unwrap()
+        .json();
+    let card = tanks["tanks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|t| t["id"] == JSON_TANK)
+        .unwrap()
+        .clone();
+    assert_eq!(card["latest"]["practical_salinity"].as_f64(), Some(sp), "{card}");
+    assert_eq!(card["stale"], true);
+    let m = metrics(addr).await;
+    assert!(m
+        .value("halotank_tank_last_reading_age_seconds", &[("tank", JSON_TANK)])
+        .is_some());
+    stop.send_replace(true);
+    tokio::time::timeout(DEADLINE, daemon)
+        .await
+        .unwrap()
+        .unwrap()
+        .unwrap();
     broker.stop().await;
 }

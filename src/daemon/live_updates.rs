@@ -97,3 +97,15 @@ impl Live {
         }
     }
 }
+
+/// Puts each configured tank's last stored reading in the view (before any new one arrives).
+pub fn seed_tank_states(view: &LiveView, config: &Config, rows: Vec<crate::storage::ReadingRow>) {
+    for row in rows {
+        if let Some(tank) = config.tanks.iter().find(|t| t.id == row.tank_id) {
+            view.set_tank_state(
+                row.time,
+                super::tank_state::TankState::from_row(&tank.name, &row, None),
+            );
+        }
+    }
+}

@@ -122,6 +122,13 @@ pub async fn run_with(
     tracing::info!(?restore_report, highest_id, "open alerts restored");
     let live = live_updates::Live::start(&config, &profiles, hooks.http_addr).await?;
     live.view.set_open_alerts(alerting.open_alerts());
+    // Each tank's last stored reading, so the page and the metrics show it before the probe reports again.
+    match reader.latest_per_tank() {
+        Ok(rows) => live_updates::seed_tank_states(&live.view, &config, rows),
+        Err(err) => {
+            tracing::warn!(error = %err, "cannot read the latest readings; tanks show none until they report")
+        }
+    }
 
     let options = connection::connection_options(&config)?;
     let filters = subscriptions(&config);
