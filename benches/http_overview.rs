@@ -11,7 +11,7 @@
 //! Set-up: a database of 1,000 tanks × 30 days × one reading a minute (43.2 million rows, each with its
 //! derived values and tonicity, written in time order through the storage module's own insert, as the
 //! daemon writes them) is built once and cached under `target/bench-data/` (`HALOTANK_BENCH_DATA` moves it;
-//! it takes several minutes and about 20 GB). `HALOTANK_BENCH_DAYS` shrinks the history for a quick run.
+//! it takes about a quarter of an hour and 25 GB). `HALOTANK_BENCH_DAYS` shrinks the history for a quick run.
 //! Then the daemon (`daemon::run` in-process) serves it with the HTTP server on loopback, while a publisher
 //! sends readings for all tanks at 2,000 per second.
 //!

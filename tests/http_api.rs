@@ -297,6 +297,83 @@ fn without_a_configured_token_every_change_is_refused_and_reads_still_work() {
     assert_eq!(f.get("/api/alerts").status, 200);
 }
 
+/// Every state-changing route refuses a missing or wrong token (401 naming the Bearer scheme, RFC 6750
+/// §3) and changes nothing in the database.
+#[test]
+fn every_change_needs_the_token() {
+    let f = Fixture::start(Some(TOKEN));
+    let count = |sql: &str| -> i64 {
+        rusqlite::Connection::open(&f.db)
+            .unwrap()
+            .query_row(sql, [], |r| r.get(0))
+            .unwrap()
+    };
+    let before = (
+        count("SELECT COUNT(*) FROM alert_ack_requests"),
+        count("SELECT COUNT(*) FROM schedules"),
+        count("SELECT COUNT(*) FROM schedule_steps_done"),
+    );
+    let start = json!({"tank": SMOLT, "plan": plan_form()}).to_string();
+    let routes: [(&str, &str); 6] = [
+        ("/api/alerts/1/ack", r#"{"by": "ines"}"#),
+        ("/api/schedules", &start),
+        ("/api/schedules/1/pause", "{}"),
+        ("/api/schedules/1/resume", "{}"),
+        ("/api/schedules/1/abort", "{}"),
+        ("/api/schedules/1/step-done", r#"{"step": 1, "by": "ines"}"#),
+    ];
+    for (path, body) in routes {
+        for token in [None, Some("not-the-token")] {
+            let r = f.post(path, body, token);
+            r.error(401);
+            assert_eq!(
+                r.www_authenticate.as_deref(),
+                Some("Bearer realm=\"halotank\""),
+                "{path} {token:?}"
+            );
+        }
+    }
+    let after = (
+        count("SELECT COUNT(*) FROM alert_ack_requests"),
+        count("SELECT COUNT(*) FROM schedules"),
+        count("SELECT COUNT(*) FROM schedule_steps_done"),
+    );
+    assert_eq!(before, after, "nothing changed");
+}
+
+/// This machine's address on its first non-loopback interface (a UDP "connect" sends nothing).
+fn lan_address() -> Option<std::net::IpAddr> {
+    let socket = std::net::UdpSocket::bind("0.0.0.0:0").ok()?;
+    socket.connect("192.0.2.1:9").ok()?;
+    let ip = socket.local_addr().ok()?.ip();
+    (!ip.is_loopback() && !ip.is_unspecified()).then_some(ip)
+}
+
+/// Listening on every interface: from this machine reads need no token; from another address the data
+/// routes need it, while the page and the probes stay open.
+#[test]
+fn reads_from_another_host_need_the_token() {
+    let Some(lan) = lan_address() else {
+        eprintln!("skipped: this machine has no non-loopback IPv4 address");
+        return;
+    };
+    let f = Fixture::start_on(Some(TOKEN), "0.0.0.0:0");
+    let port = f.addr.port();
+    let there = std::net::SocketAddr::new(lan, port);
+    let here = std::net::SocketAddr::from(([127, 0, 0, 1], port));
+    assert_eq!(get(here, "/api/tanks", &[]).status, 200);
+    let refused = get(there, "/api/tanks", &[]);
+    assert!(refused.error(401).contains("another host"), "{}", refused.body);
+    get(there, "/metrics", &[]).error(401);
+    let bearer = format!("Bearer {TOKEN}");
+    assert_eq!(
+        get(there, "/api/tanks", &[("Authorization", &bearer)]).status,
+        200
+    );
+    assert_eq!(get(there, "/", &[]).status, 200);
+    assert_eq!(get(there, "/healthz", &[]).status, 200);
+}
+
 fn plan_form() -> Value {
     json!({
         "volume_L": 2000, "from": 5, "to": 30, "temperature_C": 12, "method": "exchange",

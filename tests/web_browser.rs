@@ -6,7 +6,7 @@
 //! and the dark theme are saved in `target/browser-artifacts/`. A plan made in the page's form is started
 //! as a schedule and its first step marked done from the tank view; both land in the database.
 //!
-//! Needs the Debian packages `chromium` and `chromedriver` (`/usr/bin/chromium`, `/usr/bin/chromedriver`,
+//! Needs the Debian packages `chromium` and `chromium-driver` (`/usr/bin/chromium`, `/usr/bin/chromedriver`,
 //! or the paths in `HALOTANK_TEST_CHROMIUM` and `HALOTANK_TEST_CHROMEDRIVER`). Without them the test
 //! prints why and passes, unless `HALOTANK_TEST_BROWSER=1` (set by `.ci/run`), which makes a missing
 //! browser a failure. Nothing is downloaded at test time.

@@ -1,7 +1,8 @@
 // halotank page: the HTTP JSON API (fetch wrapper, bearer token kept for the browser session).
 //
-// Reads need no token. State-changing calls send `Authorization: Bearer <token>`; the token is asked
-// for once ("unlock") and kept in sessionStorage, so it is forgotten when the tab or browser closes.
+// Reads from the daemon's own machine need no token; from another host they do unless the server has
+// [http] open_reads. State-changing calls send `Authorization: Bearer <token>`; the token is asked for once
+// ("unlock") and kept in sessionStorage, so it is forgotten when the tab or browser closes.
 
 const TOKEN_KEY = "halotank.token";
 
@@ -41,10 +42,10 @@ export function onTokenChange(fn) {
 async function request(method, path, body, { auth = false, timeoutMs = 15000 } = {}) {
   const headers = { Accept: "application/json" };
   if (body !== undefined) headers["Content-Type"] = "application/json";
-  if (auth) {
-    const t = token();
-    if (t) headers.Authorization = `Bearer ${t}`;
-  }
+  // Changes always carry the token; reads carry it once unlocked, for a page opened from another host
+  // (the server then wants it for reads too, unless [http] open_reads).
+  const t = token();
+  if (t) headers.Authorization = `Bearer ${t}`;
   const ctrl = new AbortController();
   const timer = setTimeout(() => ctrl.abort(), timeoutMs);
   let res;

@@ -167,8 +167,11 @@ function movementWords(t) {
   );
 }
 
-function tonicityLine(t) {
-  if (!t) return h("p", { class: "tonicity muted", "data-testid": "tonicity", "data-tonicity": "none" }, "No species set: tonicity not known");
+function tonicityLine(t, hasSpecies) {
+  if (!t) {
+    const why = hasSpecies ? "Tonicity not assessed for this reading" : "No species set: tonicity not known";
+    return h("p", { class: "tonicity muted", "data-testid": "tonicity", "data-tonicity": "none" }, why);
+  }
   const kind = TONICITY[t.tonicity];
   const plasma = t.plasma_osmolality_mOsm_kg;
   const head = kind
@@ -311,7 +314,7 @@ function tankCard(card, { link = true } = {}) {
       value("salinity", "Salinity SP", l && l.practical_salinity, 2, "PSS-78"),
       value("osmolality", "Osmolality", l && l.osmolality_mOsm_kg, 0, "mOsm/kg"),
       value("temperature", "Temperature", l && l.temperature_C, 1, "°C")),
-    l ? tonicityLine(l.tonicity) : null,
+    l ? tonicityLine(l.tonicity, Boolean(species)) : null,
     l ? rangeGauge(l.practical_salinity, card.limits) : null,
     h("div", { class: "card-alerts", "data-testid": "card-alerts", "data-count": alerts.length },
       alerts.length
@@ -963,14 +966,45 @@ function planView(params) {
     renderPlan(form, plan);
   }
 
+  function renderBlend(batch) {
+    result.replaceChildren(
+      h("section", { class: "panel", "data-testid": "blend-result" },
+        h("h2", {}, `Blend: ${num(batch.batch_volume_L, 0)} L at SP ${num(batch.target_practical_salinity, 2)}`,
+          ` (${num(batch.target_osmolality_mOsm_kg, 0)} mOsm/kg)`),
+        h("ul", {},
+          h("li", { "data-testid": "blend-source-a" },
+            `${num(batch.source_a_L, 1)} L of source A (SP ${num(batch.source_a_practical_salinity, 2)})`),
+          h("li", { "data-testid": "blend-source-b" },
+            `${num(batch.source_b_L, 1)} L of source B (SP ${num(batch.source_b_practical_salinity, 2)})`)),
+        h("p", { class: "muted" },
+          `at ${num(batch.temperature_C, 1)} °C; EOS-80 densities ${num(batch.density_a_kg_m3, 2)}, `,
+          `${num(batch.density_b_kg_m3, 2)} and ${num(batch.density_batch_kg_m3, 2)} kg/m³ (A, B, batch). `,
+          "A batch is made once: it is not a schedule."),
+        batch.caution ? h("p", { class: "caution-inline" }, mark("up"), batch.caution) : null),
+    );
+  }
+
   function renderPlan(form, plan) {
+    if (form.method === "blend") {
+      renderBlend(plan);
+      return;
+    }
     const steps = plan.steps || [];
     const chartHost = h("div", { class: "chart-host", "data-testid": "plan-chart" });
     const start = new Date(plan.start).getTime();
     const end = new Date(plan.end).getTime();
     const startButton = form.tank
       ? h("button", { type: "button", class: "primary", "data-testid": "plan-start", onclick: async () => {
-          const res = await withToken(() => api.startSchedule(form.tank, form, person() || undefined));
+          // Start exactly the plan shown: the salinity, temperature, volume and start it was made from
+          // (left blank, the server would fill them in afresh from the tank's latest reading and the clock).
+          const shown = {
+            ...form,
+            from: plan.from_practical_salinity,
+            start: plan.start,
+            temperature_C: plan.assumptions && plan.assumptions.temperature_C,
+            volume_L: plan.assumptions && plan.assumptions.tank_volume_L,
+          };
+          const res = await withToken(() => api.startSchedule(form.tank, shown, person() || undefined));
           if (res) {
             const sid = (res.schedule && res.schedule.id) ?? res.id;
             say("ok", `Schedule ${sid ?? ""} started on ${form.tank}.`);

@@ -21,6 +21,7 @@ pub(crate) struct RawHttp {
     token_file: Option<String>,
     stale_after_s: Option<u64>,
     allowed_hosts: Option<Vec<String>>,
+    open_reads: Option<bool>,
 }
 
 /// The HTTP server.
@@ -39,6 +40,9 @@ pub struct HttpConfig {
     /// Host names (besides IP addresses and `localhost`) the server answers to, lower case: a request
     /// naming another host is refused, so a web page cannot reach the server by DNS rebinding.
     pub allowed_hosts: Vec<String>,
+    /// Reads (`/api/*` GET, `/metrics`) from other hosts need no token either (default false: only
+    /// requests from this machine read without one).
+    pub open_reads: bool,
 }
 
 impl Default for HttpConfig {
@@ -50,6 +54,7 @@ impl Default for HttpConfig {
             token_file: None,
             stale_after_s: None,
             allowed_hosts: Vec::new(),
+            open_reads: false,
         }
     }
 }
@@ -170,6 +175,7 @@ impl RawHttp {
             token_file,
             stale_after_s: self.stale_after_s,
             allowed_hosts,
+            open_reads: self.open_reads.unwrap_or(false),
         })
     }
 }

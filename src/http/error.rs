@@ -62,7 +62,15 @@ impl std::fmt::Display for ApiError {
 impl IntoResponse for ApiError {
     fn into_response(self) -> Response {
         let body = json!({"error": {"status": self.status.as_u16(), "message": self.message}});
-        (self.status, Json(body)).into_response()
+        let mut response = (self.status, Json(body)).into_response();
+        if self.status == StatusCode::UNAUTHORIZED {
+            // RFC 6750 §3: a refused bearer request names the scheme it expects.
+            response.headers_mut().insert(
+                axum::http::header::WWW_AUTHENTICATE,
+                axum::http::HeaderValue::from_static("Bearer realm=\"halotank\""),
+            );
+        }
+        response
     }
 }
 

@@ -10,7 +10,8 @@
 //! - [`tanks`], [`history`], [`alerts`], [`schedules`], [`plan`], [`metrics`], [`health`], [`assets`]:
 //!   one file per group of routes.
 //!
-//! Reads need no token (the server binds to loopback by default); every state-changing route needs
+//! Reads from this machine need no token (the server binds to loopback by default); reads from other hosts
+//! need it unless `[http] open_reads` ([`read_access`]); every state-changing route needs
 //! `Authorization: Bearer <token>`.
 pub mod alerts;
 pub mod assets;
@@ -26,6 +27,7 @@ pub mod live;
 pub mod metrics;
 pub mod params;
 pub mod plan;
+pub mod read_access;
 pub mod router;
 pub mod schedules;
 pub mod state;
@@ -79,7 +81,11 @@ pub async fn serve(
         .local_addr()
         .map_err(|source| HttpError::Bind { addr: bind, source })?;
     if !addr.ip().is_loopback() {
-        tracing::warn!(%addr, "HTTP server listens beyond loopback: reads (tank states, alerts) need no token");
+        if state.open_reads() {
+            tracing::warn!(%addr, "HTTP server listens beyond loopback with [http] open_reads: reads from any host need no token");
+        } else {
+            tracing::info!(%addr, "HTTP server listens beyond loopback: reads from other hosts need the token");
+        }
     }
     let app = router::router(state);
     let task = tokio::spawn(async move {
@@ -90,7 +96,8 @@ pub async fn serve(
                 }
             }
         };
-        if let Err(err) = axum::serve(listener, app).with_graceful_shutdown(stop).await {
+        let service = app.into_make_service_with_connect_info::<SocketAddr>();
+        if let Err(err) = axum::serve(listener, service).with_graceful_shutdown(stop).await {
             tracing::error!(error = %err, "HTTP server stopped with an error");
         }
     });

@@ -8,7 +8,7 @@ use axum::Router;
 
 use super::error::ApiError;
 use super::state::AppState;
-use super::{alerts, assets, health, history, host, metrics, plan, schedules, tanks};
+use super::{alerts, assets, health, history, host, metrics, plan, read_access, schedules, tanks};
 
 /// Largest request body accepted, bytes.
 pub const MAX_BODY_BYTES: usize = 64 * 1024;
@@ -37,6 +37,10 @@ pub fn router(state: AppState) -> Router {
         .fallback(not_found)
         .method_not_allowed_fallback(method_not_allowed)
         .layer(DefaultBodyLimit::max(MAX_BODY_BYTES))
+        .layer(middleware::from_fn_with_state(
+            state.clone(),
+            read_access::check_reads,
+        ))
         .layer(middleware::from_fn_with_state(state.clone(), host::check_host))
         .layer(middleware::from_fn_with_state(state.clone(), count_responses))
         .with_state(state)

@@ -83,6 +83,7 @@ struct Inner {
     index: HashMap<String, usize>,
     library: SpeciesLibrary,
     allowed_hosts: Vec<String>,
+    open_reads: bool,
 }
 
 /// Shared by every handler; cheap to clone.
@@ -134,6 +135,7 @@ impl AppState {
                 index,
                 library,
                 allowed_hosts: config.http.allowed_hosts.clone(),
+                open_reads: config.http.open_reads,
             }),
         }
     }
@@ -141,6 +143,11 @@ impl AppState {
     /// Host names besides IP addresses and `localhost` that requests may name (`[http] allowed_hosts`).
     pub fn allowed_hosts(&self) -> &[String] {
         &self.inner.allowed_hosts
+    }
+
+    /// Whether reads from other hosts need no token (`[http] open_reads`).
+    pub fn open_reads(&self) -> bool {
+        self.inner.open_reads
     }
 
     pub fn live(&self) -> &LiveView {

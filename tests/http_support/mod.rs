@@ -35,6 +35,7 @@ pub struct Reply {
     pub status: u16,
     pub content_type: String,
     pub etag: Option<String>,
+    pub www_authenticate: Option<String>,
     pub body: String,
 }
 
@@ -80,11 +81,13 @@ fn reply(response: Result<ureq::http::Response<ureq::Body>, ureq::Error>) -> Rep
     };
     let content_type = header("content-type").unwrap_or_default();
     let etag = header("etag");
+    let www_authenticate = header("www-authenticate");
     let body = response.into_body().read_to_string().unwrap_or_default();
     Reply {
         status,
         content_type,
         etag,
+        www_authenticate,
         body,
     }
 }
@@ -210,10 +213,16 @@ impl Fixture {
     /// water), three alerts (raised critical, acknowledged warning, cleared warning), a live view with
     /// the latest state, the open alerts and a connected link; `token` configured or not.
     pub fn start(token: Option<&str>) -> Fixture {
+        Self::start_on(token, "127.0.0.1:0")
+    }
+
+    /// The same, listening on `bind`.
+    pub fn start_on(token: Option<&str>, bind: &str) -> Fixture {
         let dir = tempfile::tempdir().unwrap();
         let db = dir.path().join("halotank.sqlite3");
         let config_path = dir.path().join("halotank.toml");
-        std::fs::write(&config_path, config_text(&db)).unwrap();
+        let text = config_text(&db).replace("bind = \"127.0.0.1:0\"", &format!("bind = \"{bind}\""));
+        std::fs::write(&config_path, text).unwrap();
         let config = halotank::config::load(&config_path).unwrap();
         let now = Utc::now();
         let end = now - Duration::minutes(1);
