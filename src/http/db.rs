@@ -9,12 +9,16 @@ use crate::storage::Reader;
 
 /// Read-only connections kept open between requests.
 const POOL_IDLE: usize = 4;
+/// Database calls of the API running at once; more wait their turn (a burst of requests cannot open
+/// connections or take blocking threads without bound).
+const MAX_CONCURRENT: usize = 8;
 
 /// The database the daemon writes, seen from the API.
 #[derive(Clone)]
 pub struct Db {
     path: PathBuf,
     idle: Arc<Mutex<Vec<Reader>>>,
+    permits: Arc<tokio::sync::Semaphore>,
 }
 
 impl std::fmt::Debug for Db {
@@ -28,6 +32,7 @@ impl Db {
         Self {
             path: path.to_path_buf(),
             idle: Arc::default(),
+            permits: Arc::new(tokio::sync::Semaphore::new(MAX_CONCURRENT)),
         }
     }
 
@@ -41,6 +46,7 @@ impl Db {
         T: Send + 'static,
         F: FnOnce(&Reader) -> ApiResult<T> + Send + 'static,
     {
+        let _permit = self.permit().await?;
         let db = self.clone();
         run_blocking(move || {
             let taken = db.idle.lock().unwrap_or_else(|e| e.into_inner()).pop();
@@ -64,8 +70,16 @@ impl Db {
         T: Send + 'static,
         F: FnOnce(&Path) -> ApiResult<T> + Send + 'static,
     {
+        let _permit = self.permit().await?;
         let path = self.path.clone();
         run_blocking(move || change(&path)).await
+    }
+
+    async fn permit(&self) -> ApiResult<tokio::sync::SemaphorePermit<'_>> {
+        self.permits
+            .acquire()
+            .await
+            .map_err(|_| ApiError::unavailable("the database is closing"))
     }
 }
 

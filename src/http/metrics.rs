@@ -134,6 +134,30 @@ pub fn render(
     }
     family(
         &mut out,
+        "halotank_messages_buffered_total",
+        "counter",
+        "Bare-number messages held until their other quantity arrives.",
+    );
+    sample(
+        &mut out,
+        "halotank_messages_buffered_total",
+        &[],
+        c.buffered as f64,
+    );
+    family(
+        &mut out,
+        "halotank_tonicity_refused_total",
+        "counter",
+        "Readings stored without tonicity because the science core refused the assessment.",
+    );
+    sample(
+        &mut out,
+        "halotank_tonicity_refused_total",
+        &[],
+        c.tonicity_refused as f64,
+    );
+    family(
+        &mut out,
         "halotank_tank_last_reading_age_seconds",
         "gauge",
         "Seconds since the reading time of each tank's latest committed reading.",

@@ -118,9 +118,7 @@ async fn latest_of(state: &AppState, tank: &str) -> ApiResult<Option<(f64, f64)>
     state
         .db()
         .read(move |r| {
-            Ok(r.latest_per_tank()?
-                .into_iter()
-                .find(|row| row.tank_id == tank)
+            Ok(r.latest_for_tank(&tank)?
                 .map(|row| (row.derived.practical_salinity, row.temperature_c)))
         })
         .await

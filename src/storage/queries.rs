@@ -4,6 +4,7 @@ use std::time::Duration;
 
 use chrono::{DateTime, Utc};
 use rusqlite::types::Type;
+use rusqlite::OptionalExtension;
 use rusqlite::{params, Connection, Row};
 use serde::Serialize;
 
@@ -207,7 +208,16 @@ impl Reader {
 
     /// The newest raw reading of each tank that has one, sorted by tank.
     pub fn latest_per_tank(&self) -> Result<Vec<ReadingRow>, StorageError> {
-        let what = "query latest readings";
+        let mut latest = Vec::new();
+        for tank in self.distinct_tanks("readings")? {
+            latest.extend(self.latest_for_tank(&tank)?);
+        }
+        Ok(latest)
+    }
+
+    /// One tank's newest raw reading, if it has one.
+    pub fn latest_for_tank(&self, tank_id: &str) -> Result<Option<ReadingRow>, StorageError> {
+        let what = "query a tank's latest reading";
         let sql = format!(
             "SELECT {READING_COLUMNS} FROM readings WHERE tank_id = ?1 \
              ORDER BY time_ms DESC, source_topic DESC LIMIT 1"
@@ -216,14 +226,9 @@ impl Reader {
             .conn
             .prepare_cached(&sql)
             .map_err(StorageError::sqlite(what))?;
-        let mut latest = Vec::new();
-        for tank in self.distinct_tanks("readings")? {
-            latest.push(
-                stmt.query_row(params![tank], reading_from_row)
-                    .map_err(StorageError::sqlite(what))?,
-            );
-        }
-        Ok(latest)
+        stmt.query_row(params![tank_id], reading_from_row)
+            .optional()
+            .map_err(StorageError::sqlite(what))
     }
 
     /// Raw and folded reading counts per tank, sorted by tank.
