@@ -528,6 +528,11 @@ fn schedules_start_change_and_refuse_what_the_cli_refuses() {
         .collect();
     assert!(sps.windows(2).all(|w| w[1] >= w[0]), "rising: {sps:?}");
     let list = f.get("/api/schedules").json();
+    let id = &list["schedules"][0]["id"];
+    assert!(
+        line.iter().all(|p| &p["schedule_id"] == id),
+        "each point names its schedule"
+    );
     assert_eq!(list["schedules"].as_array().unwrap().len(), 1);
     assert_eq!(
         f.get(&format!("/api/schedules?tank={SMOLT}")).json()["schedules"],

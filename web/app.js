@@ -518,7 +518,11 @@ function tankView(id) {
         : [],
       series: [
         { label: "salinity SP (solid)", axis: "left", style: "solid", cls: "s-sal", points: pts.map((p) => ({ t: t(p), v: p.practical_salinity })) },
-        sp.length ? { label: "schedule setpoint SP (dotted)", axis: "left", style: "dotted", cls: "s-set", unbroken: true, points: sp.map((p) => ({ t: t(p), v: p.practical_salinity })) } : null,
+        // One line per schedule, so an ended schedule and the next are never joined.
+        ...[...new Set(sp.map((p) => p.schedule_id))].map((id, i) => ({
+          label: "schedule setpoint SP (dotted)", noLegend: i > 0, axis: "left", style: "dotted", cls: "s-set", unbroken: true,
+          points: sp.filter((p) => p.schedule_id === id).map((p) => ({ t: t(p), v: p.practical_salinity })),
+        })),
       ].filter(Boolean),
     });
     // Osmolality against the animal's plasma: above the band the water is hyperosmotic, below hypoosmotic.

@@ -105,6 +105,7 @@ function fmtTick(v, step) {
  *   title, height, from, to (ms),
  *   left: {label, unit}, right: {label, unit}?,
  *   series: [{label, axis: "left"|"right", style: "solid"|"dashed"|"dotted", cls, points: [{t, v}],
+ *             noLegend? (a further part of a series already in the legend),
  *             stepped (hold each value until the next point), unbroken (never split at long gaps)}],
  *   now: ms, drawn as a marked vertical line when inside the range,
  *   envelopes: [{label, axis, cls, points: [{t, lo, hi}]}],
@@ -288,6 +289,7 @@ function legend(series, envelopes, bands) {
     return s;
   };
   for (const s of series) {
+    if (s.noLegend) continue;
     const li = document.createElement("li");
     li.append(sample(() => el("line", { class: `line ${s.style || "solid"} ${s.cls || ""}`, x1: 1, x2: 29, y1: 6, y2: 6 })));
     li.append(document.createTextNode(s.label));

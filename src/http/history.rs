@@ -53,6 +53,8 @@ impl From<&SeriesPoint> for Point {
 /// One point of a planned setpoint line.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SetpointPoint {
+    /// The schedule the point belongs to (one line per schedule).
+    pub schedule_id: i64,
     pub time: String,
     pub practical_salinity: f64,
 }
@@ -154,6 +156,7 @@ pub fn setpoint_line(
     }
     line.into_iter()
         .map(|(t, sp)| SetpointPoint {
+            schedule_id: schedule.id,
             time: stamp(t),
             practical_salinity: sp,
         })
