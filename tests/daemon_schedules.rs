@@ -1,7 +1,8 @@
 //! End to end over the embedded broker: a schedule stored while the daemon runs is tracked within seconds
 //! (retained setpoint, step-due reminder with the step's quantities), `halotank schedule step-done` (the
 //! binary) moves the setpoint, a reading off the setpoint raises "off schedule", the published state carries
-//! the progress, and after a restart the setpoint continues from the right step.
+//! the progress, and after a restart the setpoint continues from the right step; with
+//! `schedule_pause_on_critical` a critical alert pauses the schedule.
 mod mqtt_support;
 
 use std::path::Path;
@@ -33,6 +34,18 @@ const RULES_OFF: [&str; 10] = [
 ];
 
 fn config_text(addr: std::net::SocketAddr, db: &Path, topic: &str, prefix: &str) -> String {
+    config_with(addr, db, topic, prefix, "", &RULES_OFF)
+}
+
+/// The configuration with `alerts` appended to `[alerts]` and the rules in `off` disabled.
+fn config_with(
+    addr: std::net::SocketAddr,
+    db: &Path,
+    topic: &str,
+    prefix: &str,
+    alerts: &str,
+    off: &[&str],
+) -> String {
     let mut text = format!(
         "[site]\nname = \"Kelpie Point Hatchery\"\n[broker]\nhost = \"{}\"\nport = {}\nclient_id = \"{}\"\n\
          [storage]\npath = \"{}\"\nflush_ms = 50\n[publish]\ntopic_prefix = \"{prefix}\"\n[http]\nbind = \"127.0.0.1:0\"\n\
@@ -40,14 +53,14 @@ fn config_text(addr: std::net::SocketAddr, db: &Path, topic: &str, prefix: &str)
          format = \"json\"\nconductivity_unit = \"mS/cm\"\n\
          [tanks.topics]\ncombined = \"{topic}\"\n\
          [tanks.json_keys]\nconductivity = \"conductivity\"\ntemperature = \"temperature\"\ntime = \"time\"\n\
-         [alerts]\nschedule_band_sp = 0.5\n\
+         [alerts]\nschedule_band_sp = 0.5\n{alerts}\
          [alerts.rules.schedule_off]\nmin_duration_s = 0\n",
         addr.ip(),
         addr.port(),
         unique("halotank-sched"),
         db.display()
     );
-    for rule in RULES_OFF {
+    for rule in off {
         text.push_str(&format!("[alerts.rules.{rule}]\nenabled = false\n"));
     }
     text
@@ -238,6 +251,67 @@ async fn a_schedule_is_tracked_live_and_its_setpoint_survives_a_restart() {
     assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
     let sp = next_json(&mut watcher, &setpoint_topic, |j| j["state"] == "aborted").await;
     assert!(sp["next_step"].is_null());
+    stop.send(true).unwrap();
+    daemon.await.unwrap().unwrap();
+    broker.stop().await;
+}
+
+/// `schedule_pause_on_critical`: a reading outside the species' tolerance raises a critical alert and the
+/// daemon pauses the tank's running schedule in the database.
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn a_critical_alert_pauses_the_running_schedule() {
+    let broker = EmbeddedBroker::start().await.unwrap();
+    let addr = broker.addr();
+    let dir = tempfile::tempdir().unwrap();
+    let db = dir.path().join("pause.sqlite3");
+    let topic = format!("{}/{TANK}/probe", unique("kelpie"));
+    let off: Vec<&str> = RULES_OFF
+        .into_iter()
+        .filter(|r| *r != "salinity_tolerance")
+        .collect();
+    let text = config_with(
+        addr,
+        &db,
+        &topic,
+        &unique("halotank-e2e-pause"),
+        "schedule_pause_on_critical = true\n[alerts.rules.salinity_tolerance]\nmin_duration_s = 0\n",
+        &off,
+    );
+    let cfg = config::parse(&text, &dir.path().join("halotank.toml")).unwrap();
+    let (stop, stop_rx) = watch::channel(false);
+    let daemon = tokio::spawn(halotank::daemon::run(cfg, stop_rx));
+    let start = Utc::now();
+    let request = plan_request(start);
+    let plan = SchedulePlan::from(&make_plan(&request).unwrap());
+    let id = ScheduleStore::open(&db)
+        .unwrap()
+        .insert(TANK, start, &plan, &request)
+        .unwrap()
+        .id;
+    // Let the daemon pick the schedule up, then send water above the smolt profile's tolerance.
+    tokio::time::sleep(Duration::from_millis(3000)).await;
+    let library = halotank::species::SpeciesLibrary::embedded().unwrap();
+    let too_salty = library
+        .get("atlantic_salmon_smolt")
+        .unwrap()
+        .salinity_tolerance
+        .max
+        + 3.0;
+    let mut probe = Peer::connect(addr, &unique("probe"), true).await;
+    let c = conductivity_from_practical_salinity(too_salty, 12.0, 0.0).unwrap();
+    let time = Utc::now().to_rfc3339_opts(SecondsFormat::Millis, true);
+    let payload = format!("{{\"conductivity\": {c}, \"temperature\": 12.0, \"time\": \"{time}\"}}");
+    probe.publish_acked(&topic, payload.as_bytes(), false).await;
+    wait_until("the critical alert", || {
+        !open_alerts(&db, "salinity_tolerance").is_empty()
+    })
+    .await;
+    wait_until("the schedule to be paused", || {
+        ScheduleStore::open(&db)
+            .map(|s| s.get(id).map(|s| s.state.name() == "paused").unwrap_or(false))
+            .unwrap_or(false)
+    })
+    .await;
     stop.send(true).unwrap();
     daemon.await.unwrap().unwrap();
     broker.stop().await;
