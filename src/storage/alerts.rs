@@ -137,22 +137,13 @@ pub fn select_alerts(
     open_only: bool,
     tank: Option<&str>,
 ) -> Result<Vec<AlertRecord>, StorageError> {
-    let what = "read alerts";
-    let mut stmt = conn
-        .prepare_cached(
-            "SELECT record_json FROM alerts WHERE (?1 = 0 OR state <> 'cleared') AND (?2 IS NULL OR tank = ?2) \
-             ORDER BY id DESC",
-        )
-        .map_err(StorageError::sqlite(what))?;
-    let rows = stmt
-        .query_map(params![open_only, tank], |row| row.get::<_, String>(0))
-        .map_err(StorageError::sqlite(what))?;
-    let mut out = Vec::new();
-    for row in rows {
-        let json = row.map_err(StorageError::sqlite(what))?;
-        out.push(parse_record(&json)?);
-    }
-    Ok(out)
+    let filter = AlertFilter {
+        open_only,
+        tank: tank.map(str::to_owned),
+        limit: u32::MAX,
+        ..AlertFilter::default()
+    };
+    select_alerts_filtered(conn, &filter)
 }
 
 /// One alert by id.
