@@ -366,6 +366,19 @@ fn agent() -> ureq::Agent {
         .into()
 }
 
+/// One GET on a kept-alive connection: milliseconds taken and the body.
+fn timed_get(agent: &ureq::Agent, url: &str) -> (f64, String) {
+    let t = Instant::now();
+    let body = agent
+        .get(url)
+        .call()
+        .unwrap()
+        .body_mut()
+        .read_to_string()
+        .unwrap();
+    (t.elapsed().as_secs_f64() * 1e3, body)
+}
+
 fn measure_overview(base: &str) -> (Latencies, usize, usize) {
     let agent = agent();
     let url = format!("{base}/api/tanks");
@@ -382,15 +395,8 @@ fn measure_overview(base: &str) -> (Latencies, usize, usize) {
         .map_or(0, |t| t.iter().filter(|c| !c["latest"].is_null()).count());
     let mut ms = Vec::with_capacity(OVERVIEW_REQUESTS);
     for _ in 0..OVERVIEW_REQUESTS {
-        let t = Instant::now();
-        let body = agent
-            .get(&url)
-            .call()
-            .unwrap()
-            .body_mut()
-            .read_to_string()
-            .unwrap();
-        ms.push(t.elapsed().as_secs_f64() * 1e3);
+        let (took, body) = timed_get(&agent, &url);
+        ms.push(took);
         assert!(
             body.len() > TANKS * 100,
             "overview answer too short: {} bytes",
@@ -412,15 +418,8 @@ fn measure_chart(base: &str, end: DateTime<Utc>) -> Latencies {
         state ^= state << 17;
         let tank = tank_id((state % TANKS as u64) as usize);
         let url = format!("{base}/api/tanks/{tank}/history?from={from}&to={to}&points=1000");
-        let t = Instant::now();
-        let body = agent
-            .get(&url)
-            .call()
-            .unwrap()
-            .body_mut()
-            .read_to_string()
-            .unwrap();
-        ms.push(t.elapsed().as_secs_f64() * 1e3);
+        let (took, body) = timed_get(&agent, &url);
+        ms.push(took);
         assert!(body.contains("\"points\""), "chart answer without points");
     }
     Latencies { ms }

@@ -39,11 +39,11 @@ export function onTokenChange(fn) {
   listeners.push(fn);
 }
 
-async function request(method, path, body, { auth = false, timeoutMs = 15000 } = {}) {
+async function request(method, path, body, { timeoutMs = 15000 } = {}) {
   const headers = { Accept: "application/json" };
   if (body !== undefined) headers["Content-Type"] = "application/json";
-  // Changes always carry the token; reads carry it once unlocked, for a page opened from another host
-  // (the server then wants it for reads too, unless [http] open_reads).
+  // Once unlocked, every request carries the token: changes need it, and so do reads of a page opened from
+  // another host (unless the server has [http] open_reads).
   const t = token();
   if (t) headers.Authorization = `Bearer ${t}`;
   const ctrl = new AbortController();
@@ -103,13 +103,13 @@ export const api = {
   history: (id, from, to, points) =>
     request("GET", `/api/tanks/${enc(id)}/history` + query({ from, to, points }), undefined, { timeoutMs: 30000 }),
   alerts: (params) => request("GET", "/api/alerts" + query(params)),
-  ack: (id, by, note) => request("POST", `/api/alerts/${enc(id)}/ack`, { by, note: note || undefined }, { auth: true }),
+  ack: (id, by, note) => request("POST", `/api/alerts/${enc(id)}/ack`, { by, note: note || undefined }),
   ackRequest: (id) => request("GET", `/api/ack-requests/${enc(id)}`),
   schedules: (params) => request("GET", "/api/schedules" + query(params)),
   schedule: (id) => request("GET", `/api/schedules/${enc(id)}`),
   plan: (form) => request("POST", "/api/plan", form),
-  startSchedule: (tank, plan, by) => request("POST", "/api/schedules", { tank, plan, by }, { auth: true }),
+  startSchedule: (tank, plan, by) => request("POST", "/api/schedules", { tank, plan, by }),
   scheduleAction: (id, action, by) =>
-    request("POST", `/api/schedules/${enc(id)}/${action}`, { by: by || undefined }, { auth: true }),
-  stepDone: (id, step, by) => request("POST", `/api/schedules/${enc(id)}/step-done`, { step, by }, { auth: true }),
+    request("POST", `/api/schedules/${enc(id)}/${action}`, { by: by || undefined }),
+  stepDone: (id, step, by) => request("POST", `/api/schedules/${enc(id)}/step-done`, { step, by }),
 };

@@ -62,8 +62,10 @@ impl SetpointMessage {
         }
     }
 
-    /// Whether `other` says something a follower must hear: anything but a setpoint move smaller than
-    /// `resolution_sp` (a flow step's setpoint creeps continuously).
+    /// Whether `other` says something a follower must hear: a setpoint move of at least `resolution_sp` (a
+    /// flow step's setpoint creeps continuously), another schedule, state, step, next step or pace, or the
+    /// expected finish appearing or going (its time moves every second while a step is late, so that alone
+    /// is not republished).
     pub fn differs_from(&self, other: &SetpointMessage, resolution_sp: f64) -> bool {
         let moved =
             (self.setpoint_practical_salinity - other.setpoint_practical_salinity).abs() >= resolution_sp;
